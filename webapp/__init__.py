@@ -1,0 +1,43 @@
+"""Rondo web layer: HTTP, storage and pages around the pure solver package."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from flask import Flask
+
+__all__ = ["create_app", "STATIC_DIR"]
+
+# The page's own JS/CSS/manifest live at the top of the repository, beside webapp/.
+STATIC_DIR = Path(__file__).resolve().parent.parent / "static"
+
+
+def create_app(test_config=None, *, instance_path=None):
+    """Build the app: defaults, then instance config or ``test_config``, then db, then blueprints."""
+    app = Flask(
+        __name__,
+        instance_relative_config=True,
+        instance_path=os.path.abspath(instance_path) if instance_path else None,
+        static_folder=str(STATIC_DIR),
+        static_url_path="/static",
+    )
+    app.config.from_mapping(
+        DATABASE=os.path.join(app.instance_path, "rondo.sqlite"),
+        MAX_CONTENT_LENGTH=2 * 1024 * 1024,  # a CSV of a few thousand clients fits easily
+        JSON_SORT_KEYS=False,
+    )
+    if test_config is None:
+        app.config.from_pyfile("config.py", silent=True)
+    else:
+        app.config.from_mapping(test_config)
+    os.makedirs(app.instance_path, exist_ok=True)
+
+    from . import api, db, errors, jobs, pages
+
+    db.init_app(app)
+    jobs.init_app(app)
+    errors.init_app(app)
+    app.register_blueprint(api.bp)
+    app.register_blueprint(pages.bp)
+    return app

@@ -1,0 +1,7 @@
+"""``python -m webapp`` runs the ``rondo`` command."""
+
+import sys
+
+from .cli import main
+
+sys.exit(main())

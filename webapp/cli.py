@@ -1,0 +1,101 @@
+"""The ``rondo`` command: solve files on the laptop, serve the phone page.
+
+Exit codes: 0 done, 2 bad input (one line naming the problem), 3 no feasible
+day plan (the explanation is printed), 4 the solver failed or ran out of time
+without any plan.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+from solver.errors import Infeasible, SolverError
+
+__all__ = ["main", "build_parser"]
+
+EXIT_BAD_INPUT = 2
+EXIT_INFEASIBLE = 3
+EXIT_SOLVER = 4
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="rondo", description=__doc__.splitlines()[0])
+    sub = parser.add_subparsers(dest="command", required=True)
+
+    solve = sub.add_parser("solve", help="solve a TSPLIB, time-window benchmark or stops CSV file")
+    solve.add_argument("file", help=".tsp/.atsp TSPLIB file, a time-window benchmark .txt, "
+                                    "or a stops CSV")
+    solve.add_argument("--json", action="store_true", help="print one JSON object")
+    solve.add_argument("--time-limit", type=float, default=60.0, metavar="S",
+                       help="stop after S seconds and report the best plan with its gap")
+    solve.add_argument("--method", default="auto",
+                       choices=["auto", "dfj", "mtz", "held-karp", "heuristic"],
+                       help="loop method (days with windows always use the exact day planner)")
+    solve.add_argument("--home", metavar="LAT,LON",
+                       help="home position; otherwise the first CSV row is home")
+    solve.add_argument("--distance", default="geodesic", choices=["geodesic", "great-circle"])
+    solve.add_argument("--detour", type=float, default=None, metavar="F",
+                       help="road km per straight-line km")
+    solve.add_argument("--speed", type=float, default=None, metavar="KMH",
+                       help="average driving speed")
+    solve.add_argument("--cost", default="km", choices=["km", "minutes"],
+                       help="what a plain loop minimises")
+    solve.add_argument("--day-start", metavar="HH:MM", help="departure from home")
+    solve.add_argument("--day-end", metavar="HH:MM", help="latest return home")
+    solve.add_argument("--objective", choices=["km", "return"], default="km",
+                       help="least driving (km) or earliest return home")
+    solve.add_argument("--break", dest="break_rule", metavar="MIN@HH:MM-HH:MM",
+                       help="a break of MIN minutes inside the given hours, e.g. 30@12:00-14:00")
+    solve.add_argument("--from", dest="from_", metavar="LAT,LON|NAME",
+                       help="re-plan from here: a position or the client where you stand")
+    solve.add_argument("--now", metavar="HH:MM", help="re-plan: the time now")
+    solve.add_argument("--done", metavar="NAME,...", help="re-plan: visits already done")
+
+    serve = sub.add_parser("serve", help="serve the phone page on this laptop")
+    serve.add_argument("--host", default="127.0.0.1")
+    serve.add_argument("--port", type=int, default=8765)
+    serve.add_argument("--data", default="instance", metavar="DIR",
+                       help="folder for the database and everything the app writes")
+    serve.add_argument("--demo", action="store_true",
+                       help="fill an empty database with the demo scenario")
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    if args.command == "serve":
+        from .server import serve
+
+        serve(host=args.host, port=args.port, data_dir=args.data, demo=args.demo)
+        return 0
+    try:
+        if args.command == "solve":
+            from .cli_solve import run_solve
+
+            payload, text = run_solve(args)
+        else:  # pragma: no cover - argparse rejects unknown commands
+            return EXIT_BAD_INPUT
+    except Infeasible as why:
+        if getattr(args, "json", False):
+            print(json.dumps({"feasible": False, "explanation": why.explanation}, indent=2))
+        else:
+            print(f"rondo: {why}", file=sys.stderr)
+        return EXIT_INFEASIBLE
+    except ValueError as bad:  # InvalidInput derives from ValueError
+        print(f"rondo: {_one_line(bad)}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except SolverError as failed:
+        print(f"rondo: {_one_line(failed)}", file=sys.stderr)
+        return EXIT_SOLVER
+    print(json.dumps(payload, indent=2) if args.json else text)
+    return 0
+
+
+def _one_line(error: Exception) -> str:
+    return " ".join(str(error).split())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -228,7 +228,9 @@ def _label_search(problem: DayProblem, checked, deadline: float, incumbent,
         if time.perf_counter() > deadline:
             raise _TimeUp(_layer_bound(layer, remaining_bound))
         new_layer: dict[tuple[int, int], tuple[float, float, list]] = {}
-        for (mask, last), labels in layer.items():
+        for count, ((mask, last), labels) in enumerate(layer.items()):
+            if count % 2048 == 2047 and time.perf_counter() > deadline:
+                raise _TimeUp(_layer_bound(layer, remaining_bound))
             for j in todo:
                 if mask & bit[j]:
                     continue
@@ -421,6 +423,7 @@ def quote_extra_visit(problem: DayProblem, plan: DayPlan, candidate_node: int, *
                          tuple(todo) + (candidate_node,), problem.break_taken)
     checked_with = check_day_problem(with_it)
     estimate = None
+    estimate_started = time.perf_counter()
     order = list(plan.order)
     for pos in range(len(order) + 1):
         trial = order[:pos] + [candidate_node] + order[pos:]
@@ -432,10 +435,11 @@ def quote_extra_visit(problem: DayProblem, plan: DayPlan, candidate_node: int, *
                 estimate = {"extra_km": extra_km,
                             "extra_min": summary["return_min"] - plan.return_min,
                             "position": pos + 1, "return": format_clock(summary["return_min"])}
+    estimate_ms = 1000 * (time.perf_counter() - estimate_started)
     try:
         exact_plan = plan_day(with_it, time_limit_s=time_limit_s)
     except Infeasible as why:
-        return {"name": name, "estimate": estimate,
+        return {"name": name, "estimate": estimate, "estimate_ms": estimate_ms,
                 "exact": {"fits": False, "explanation": why.explanation}, "plan": None}
     before = {v.node: (k, v.start_min) for k, v in enumerate(plan.visits)}
     kept = [v.node for v in exact_plan.visits if v.node in before]
@@ -454,5 +458,6 @@ def quote_extra_visit(problem: DayProblem, plan: DayPlan, candidate_node: int, *
         "proven_optimal": exact_plan.proven_optimal,
         "moved": moved,
     }
-    return {"name": name, "estimate": estimate, "exact": exact, "plan": exact_plan.as_dict()}
+    return {"name": name, "estimate": estimate, "estimate_ms": estimate_ms, "exact": exact,
+            "plan": exact_plan.as_dict()}
 

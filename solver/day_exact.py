@@ -39,7 +39,13 @@ from .errors import Infeasible, InvalidInput, SolverError
 from .loop import solve_loop
 from .result import relative_gap
 
-__all__ = ["DAY_METHODS", "plan_day", "explain_infeasible", "quote_extra_visit"]
+__all__ = [
+    "DAY_METHODS",
+    "plan_day",
+    "explain_infeasible",
+    "quote_extra_visit",
+    "best_subset_routes",
+]
 
 DAY_METHODS = ("auto", "labels")
 _EPS = 1e-7
@@ -183,8 +189,15 @@ def _shortest_times(minutes: np.ndarray) -> np.ndarray:
 
 
 def _label_search(problem: DayProblem, checked, deadline: float, incumbent,
-                  *, feasibility_only: bool = False):
-    """Exact dynamic programme; returns ((planned, summary) or None, stats)."""
+                  *, feasibility_only: bool = False, every_subset: bool = False,
+                  max_size: int | None = None):
+    """Exact dynamic programme; returns ((planned, summary) or None, stats).
+
+    With ``every_subset`` the programme does not have to visit everyone: it
+    returns instead, for every subset of ``todo`` (up to ``max_size`` visits) that
+    fits the day, the best way to visit exactly that subset, as
+    ``{mask: (key, order, break_at)}`` with the bit order of ``todo``.
+    """
     km, minutes, todo = checked
     rules = problem.rules
     objective = rules.objective
@@ -217,14 +230,44 @@ def _label_search(problem: DayProblem, checked, deadline: float, incumbent,
     def limit(mask: int, last: int) -> float:
         # A label at (mask, last) must leave by this time to reach every unvisited client.
         lim = rules.end_min - sp[last, 0]
+        if every_subset:
+            return lim
         for j in todo:
             if not mask & bit[j]:
                 lim = min(lim, latest[j] - sp[last, j])
         return lim
 
+    def close(last: int, labels) -> tuple | None:
+        """The best way home from ``last`` over ``labels``: (key, chain, break before home)."""
+        best_here = None
+        for km_so_far, t, owed, chain in labels:
+            for take_break in ((False, True) if owed else (False,)):
+                depart = t
+                if take_break:
+                    depart = max(t, brk.earliest_min) + brk.duration_min
+                    if depart > brk.latest_min + _EPS:
+                        continue
+                back = depart + minutes[last, 0]
+                if back > rules.end_min + _EPS:
+                    continue
+                if owed and not take_break and back > brk.latest_min - brk.duration_min + _EPS:
+                    continue
+                total = km_so_far + km[last, 0]
+                key = (total, back) if objective == "km" else (back, total)
+                if best_here is None or key < best_here[0]:
+                    best_here = (key, chain, take_break)
+        return best_here
+
     layer = {(0, start): [(0.0, t0, owed0, None)]}
     labels_made = 0
-    for _ in range(m):
+    subsets: dict[int, tuple] = {}
+    if every_subset:
+        empty = close(start, layer[(0, start)])
+        if empty is not None:
+            subsets[0] = (empty[0], [], None)
+    if every_subset or feasibility_only:
+        upper = float("inf")
+    for _ in range(m if max_size is None else min(m, max_size)):
         if time.perf_counter() > deadline:
             raise _TimeUp(_layer_bound(layer, remaining_bound))
         new_layer: dict[tuple[int, int], tuple[float, float, list]] = {}
@@ -259,29 +302,23 @@ def _label_search(problem: DayProblem, checked, deadline: float, incumbent,
                                 labels_made += _insert(bucket, (new_km, begin + service[j], False,
                                                                 (j, True, chain)))
         layer = {k: entry[2] for k, entry in new_layer.items() if entry[2]}
+        if every_subset:
+            for (mask, last), labels in layer.items():
+                closed = close(last, labels)
+                if closed is not None and (mask not in subsets or closed[0] < subsets[mask][0]):
+                    order, break_at = _unwind(closed[1])
+                    subsets[mask] = (closed[0], order, len(order) if closed[2] else break_at)
         if not layer:
             break
+    if every_subset:
+        return subsets, {"labels": labels_made}
     best = None
     for (mask, last), labels in layer.items():
         if mask != full:
             continue
-        for km_so_far, t, owed, chain in labels:
-            for take_break in ((False, True) if owed else (False,)):
-                depart = t
-                if take_break:
-                    b_start = max(t, brk.earliest_min)
-                    depart = b_start + brk.duration_min
-                    if depart > brk.latest_min + _EPS:
-                        continue
-                back = depart + minutes[last, 0]
-                if back > rules.end_min + _EPS:
-                    continue
-                if owed and not take_break and back > brk.latest_min - brk.duration_min + _EPS:
-                    continue
-                total = km_so_far + km[last, 0]
-                key = (total, back) if objective == "km" else (back, total)
-                if best is None or key < best[0]:
-                    best = (key, chain, take_break)
+        closed = close(last, labels)
+        if closed is not None and (best is None or closed[0] < best[0]):
+            best = closed
     stats = {"labels": labels_made}
     if best is None:
         return None, stats
@@ -461,3 +498,29 @@ def quote_extra_visit(problem: DayProblem, plan: DayPlan, candidate_node: int, *
     return {"name": name, "estimate": estimate, "estimate_ms": estimate_ms, "exact": exact,
             "plan": exact_plan.as_dict()}
 
+
+
+def best_subset_routes(problem: DayProblem, *, max_size: int | None = None,
+                       time_limit_s: float = 30.0) -> dict[frozenset, tuple[float, float, list]]:
+    """For every subset of ``problem.todo`` that fits the day: its best (km, return, order).
+
+    One run of the exact programme serves every subset, since its states are
+    (visited set, last stop); the best plan of a subset closes its best label
+    home. Raises SolverError when the time limit stops it (nothing partial is
+    returned, as a missing subset would make a week plan look optimal wrongly).
+    """
+    checked = check_day_problem(problem)
+    _, _, todo = checked
+    deadline = time.perf_counter() + time_limit_s
+    try:
+        subsets, _ = _label_search(problem, checked, deadline, None, every_subset=True,
+                                   max_size=max_size)
+    except _TimeUp:
+        raise SolverError(f"listing the day's feasible visit sets took over {time_limit_s:g} s"
+                          ) from None
+    result = {}
+    for mask, (key, order, _) in subsets.items():
+        members = frozenset(node for k, node in enumerate(todo) if mask >> k & 1)
+        km_total, back = (key if problem.rules.objective == "km" else (key[1], key[0]))
+        result[members] = (km_total, back, order)
+    return result

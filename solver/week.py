@@ -1,0 +1,470 @@
+"""The week: which client on which working day, each day's loop exact, and a bound on the whole.
+
+Two methods, chosen by size:
+
+- **exact** (small weeks): one run of the exact day programme per working day
+  lists the best route of *every* set of clients that fits that day
+  (:func:`solver.day_exact.best_subset_routes`); a set-partitioning integer
+  programme then picks one set per day so that every client gets its visits,
+  respecting allowed days, caps and gaps between repeated visits (Balinski &
+  Quandt 1964, the set-partitioning view of vehicle routing). HiGHS proves it.
+- **improve** (larger weeks): cheapest feasible insertion across days (clients
+  with the fewest allowed days first, the farthest from home first), then moves
+  of one visit to another day and swaps of two, each judged by re-solving the
+  touched days exactly, until no move helps (a local optimum; each day's loop
+  is proven for its clients).
+
+The lower bound of an improved week is the proven-optimal single loop through
+all the week's clients from home: merging the day loops at home gives a closed
+walk through everyone, which shortcuts to a loop no longer than the week when
+the distances obey the triangle inequality (checked on the matrix; otherwise a
+weaker bound, every client entered once by its cheapest leg, is reported).
+"""
+
+from __future__ import annotations
+
+import itertools
+import time
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from .clock import Window
+from .day import DayPlan, DayProblem, DayRules, Visit
+from .day_exact import best_subset_routes, plan_day
+from .errors import Infeasible, InvalidInput, SolverError
+from .loop import solve_loop
+from .milp_backend import new_highs
+from .result import relative_gap
+
+__all__ = [
+    "WorkDay",
+    "WeekClient",
+    "WeekProblem",
+    "WeekPlan",
+    "EXACT_WEEK_MAX_VISITS",
+    "plan_week",
+    "quote_week_days",
+]
+
+EXACT_WEEK_MAX_VISITS = 16  # beyond this the per-day set listing grows past a few seconds
+_EPS = 1e-7
+
+
+@dataclass(frozen=True)
+class WorkDay:
+    """One working day of the week: its hours and optional caps."""
+
+    name: str
+    rules: DayRules
+    max_visits: int | None = None
+    max_work_min: float | None = None
+
+
+@dataclass(frozen=True)
+class WeekClient:
+    """A client due this week. ``node`` is its row in the week's matrices (home is 0).
+
+    ``allowed_days`` are indices into the week's days (None: any); ``day_windows``
+    overrides ``windows`` on given days; ``visits`` times a week, at least
+    ``min_gap_days`` working days apart; ``fixed_day`` pins the client to a day.
+    """
+
+    name: str
+    node: int
+    service_min: float = 0.0
+    windows: tuple[Window, ...] = ()
+    day_windows: Mapping[int, tuple[Window, ...]] = field(default_factory=dict)
+    allowed_days: tuple[int, ...] | None = None
+    visits: int = 1
+    min_gap_days: int = 1
+    fixed_day: int | None = None
+
+    def days_open(self, n_days: int) -> list[int]:
+        if self.fixed_day is not None:
+            return [self.fixed_day]
+        return list(range(n_days)) if self.allowed_days is None else sorted(self.allowed_days)
+
+    def windows_on(self, day: int) -> tuple[Window, ...]:
+        return tuple(self.day_windows.get(day, self.windows))
+
+
+@dataclass(frozen=True)
+class WeekProblem:
+    """The week to plan: travel matrices (node 0 home), the clients due, the working days."""
+
+    km: Any
+    minutes: Any
+    clients: tuple[WeekClient, ...]
+    days: tuple[WorkDay, ...]
+
+
+@dataclass(frozen=True)
+class WeekPlan:
+    """Each day's proven plan (None for a free day), the totals, and the week's bound."""
+
+    days: tuple[DayPlan | None, ...]
+    day_names: tuple[str, ...]
+    assignment: tuple[tuple[str, ...], ...]
+    total_km: float
+    total_drive_min: float
+    proven_optimal: bool
+    lower_bound: float
+    bound_note: str
+    gap: float
+    seconds: float
+    method: str
+    stats: dict = field(default_factory=dict)
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "days": [
+                {"name": name, "clients": list(names),
+                 "plan": plan.as_dict() if plan is not None else None}
+                for name, names, plan in zip(self.day_names, self.assignment, self.days,
+                                             strict=True)
+            ],
+            "total_km": round(self.total_km, 3),
+            "total_drive_min": round(self.total_drive_min, 3),
+            "proven_optimal": self.proven_optimal,
+            "lower_bound": self.lower_bound,
+            "bound_note": self.bound_note,
+            "gap": self.gap,
+            "seconds": self.seconds,
+            "method": self.method,
+            "stats": dict(self.stats),
+        }
+
+
+def _check(problem: WeekProblem) -> tuple[np.ndarray, np.ndarray]:
+    km = np.array(problem.km, dtype=float)
+    minutes = np.array(problem.minutes, dtype=float)
+    if km.ndim != 2 or km.shape[0] != km.shape[1] or km.shape != minutes.shape:
+        raise InvalidInput(f"km {km.shape} and minutes {minutes.shape} must be one square shape",
+                           field="km", value=km.shape)
+    if not problem.days:
+        raise InvalidInput("the week has no working days", field="days")
+    n_days = len(problem.days)
+    names, nodes = set(), set()
+    for c in problem.clients:
+        if c.name in names:
+            raise InvalidInput(f"client {c.name!r} is listed twice", field="clients", value=c.name)
+        if not 1 <= c.node < len(km) or c.node in nodes:
+            raise InvalidInput(f"client {c.name!r} has matrix row {c.node}; expected a distinct "
+                               f"row 1..{len(km) - 1}", field="node", value=c.node)
+        names.add(c.name)
+        nodes.add(c.node)
+        days = c.days_open(n_days)
+        if not days or any(not 0 <= d < n_days for d in days):
+            raise InvalidInput(f"client {c.name!r} may be visited on days {days!r}; expected "
+                               f"indices 0..{n_days - 1}", field="allowed_days", value=days)
+        if not isinstance(c.visits, int) or not 1 <= c.visits <= n_days:
+            raise InvalidInput(f"client {c.name!r} needs {c.visits!r} visits; expected 1.."
+                               f"{n_days} (at most one a day)", field="visits", value=c.visits)
+        if not isinstance(c.min_gap_days, int) or c.min_gap_days < 1:
+            raise InvalidInput(f"client {c.name!r} has a gap of {c.min_gap_days!r} days; expected "
+                               "a whole number >= 1", field="min_gap_days", value=c.min_gap_days)
+    for day in problem.days:
+        if day.max_visits is not None and (not isinstance(day.max_visits, int)
+                                           or day.max_visits < 0):
+            raise InvalidInput(f"day {day.name} caps visits at {day.max_visits!r}",
+                               field="max_visits", value=day.max_visits)
+    return km, minutes
+
+
+def _day_problem(problem: WeekProblem, km, minutes, day: int, clients: Sequence[WeekClient],
+                 todo: Sequence[WeekClient] | None = None) -> DayProblem:
+    """The day's own problem over ``clients`` (rows: home, then those clients in order)."""
+    rows = [0] + [c.node for c in clients]
+    visits = tuple(Visit(c.name, c.service_min, c.windows_on(day)) for c in clients)
+    index = {c.name: k for k, c in enumerate(clients, start=1)}
+    todo_nodes = None if todo is None else tuple(index[c.name] for c in todo)
+    return DayProblem(km[np.ix_(rows, rows)], minutes[np.ix_(rows, rows)], visits,
+                      problem.days[day].rules, todo=todo_nodes)
+
+
+def plan_week(problem: WeekProblem, *, time_limit_s: float = 60.0,
+              method: str = "auto") -> WeekPlan:
+    """Assign every due visit to a working day and plan each day exactly.
+
+    ``method`` "exact" proves the week optimal (small weeks); "improve" gives a
+    local optimum with each day proven and a valid lower bound on the week; "auto"
+    picks exact up to :data:`EXACT_WEEK_MAX_VISITS` visits and falls back to
+    improve when the exact listing runs out of time.
+    """
+    started = time.perf_counter()
+    if method not in ("auto", "exact", "improve"):
+        raise InvalidInput(f"method {method!r} is not known; expected auto, exact or improve",
+                           field="method", value=method)
+    km, minutes = _check(problem)
+    deadline = started + time_limit_s
+    total_visits = sum(c.visits for c in problem.clients)
+    if method == "exact" or (method == "auto" and total_visits <= EXACT_WEEK_MAX_VISITS):
+        try:
+            assignment, stats = _exact_assignment(problem, km, minutes, deadline)
+            return _finish(problem, km, minutes, assignment, started, proven=True,
+                           method="exact", stats=stats)
+        except SolverError as stopped:
+            if method == "exact" or isinstance(stopped, Infeasible):
+                raise
+    assignment, stats = _improved_assignment(problem, km, minutes, deadline)
+    return _finish(problem, km, minutes, assignment, started, proven=False, method="improve",
+                   stats=stats)
+
+
+def _finish(problem, km, minutes, assignment, started, *, proven, method, stats) -> WeekPlan:
+    plans: list[DayPlan | None] = []
+    for d, clients in enumerate(assignment):
+        if not clients:
+            plans.append(None)
+            continue
+        plans.append(plan_day(_day_problem(problem, km, minutes, d, clients), time_limit_s=30))
+    total_km = sum(p.total_km for p in plans if p is not None)
+    total_min = sum(p.total_drive_min for p in plans if p is not None)
+    if proven:
+        bound, note = total_km, "proven optimal week"
+    else:
+        bound, note = _week_lower_bound(problem, km)
+    return WeekPlan(
+        days=tuple(plans),
+        day_names=tuple(d.name for d in problem.days),
+        assignment=tuple(tuple(c.name for c in clients) for clients in assignment),
+        total_km=total_km,
+        total_drive_min=total_min,
+        proven_optimal=proven,
+        lower_bound=min(bound, total_km),
+        bound_note=note,
+        gap=0.0 if proven else relative_gap(total_km, min(bound, total_km)),
+        seconds=time.perf_counter() - started,
+        method=method,
+        stats=stats,
+    )
+
+
+def _week_lower_bound(problem: WeekProblem, km: np.ndarray) -> tuple[float, str]:
+    rows = [0] + [c.node for c in problem.clients]
+    sub = km[np.ix_(rows, rows)]
+    metric = bool(np.all(sub[:, None, :] <= sub[:, :, None] + sub[None, :, :] + 1e-9))
+    if metric:
+        loop = solve_loop(sub, time_limit_s=20)
+        return loop.lower_bound, "one proven loop through every client (triangle inequality holds)"
+    off = np.where(np.eye(len(sub), dtype=bool), np.inf, sub)
+    entries = sum(c.visits * off[:, k].min() for k, c in enumerate(problem.clients, start=1))
+    return float(entries + off[:, 0].min()), "each visit entered by its cheapest leg"
+
+
+def _day_cap_ok(day: WorkDay, size: int, back_min: float) -> bool:
+    if day.max_visits is not None and size > day.max_visits:
+        return False
+    return day.max_work_min is None or back_min - day.rules.start_min <= day.max_work_min + _EPS
+
+
+def _exact_assignment(problem, km, minutes, deadline):
+    """Set partitioning over every feasible (day, set of clients), solved by HiGHS."""
+    n_days = len(problem.days)
+    columns: list[tuple[int, frozenset, float]] = []
+    for d, day in enumerate(problem.days):
+        open_here = [c for c in problem.clients if d in c.days_open(n_days)]
+        left = deadline - time.perf_counter()
+        if left <= 0:
+            raise SolverError("the week's time limit ran out while listing day plans")
+        routes = best_subset_routes(_day_problem(problem, km, minutes, d, open_here),
+                                    max_size=day.max_visits, time_limit_s=left)
+        for members, (km_total, back, _) in routes.items():
+            if _day_cap_ok(day, len(members), back):
+                names = frozenset(open_here[k - 1].name for k in members)
+                columns.append((d, names, float(km_total)))
+    clients = list(problem.clients)
+    row_of = {c.name: k for k, c in enumerate(clients)}
+    n_rows = len(clients) + n_days
+    gap_rows: list[tuple[str, list[int]]] = []
+    for c in clients:
+        if c.visits > 1 and c.min_gap_days > 1:
+            for first in range(n_days):
+                span = list(range(first, min(n_days, first + c.min_gap_days)))
+                if len(span) > 1:
+                    gap_rows.append((c.name, span))
+    highs = new_highs(time_limit_s=max(0.1, deadline - time.perf_counter()))
+    inf = highs.getInfinity()
+    lower = [float(c.visits) for c in clients] + [0.0] * n_days + [-inf] * len(gap_rows)
+    upper = [float(c.visits) for c in clients] + [1.0] * n_days + [1.0] * len(gap_rows)
+    count = n_rows + len(gap_rows)
+    highs.addRows(count, np.array(lower), np.array(upper), 0, np.zeros(count, dtype=np.int32),
+                  np.zeros(0, dtype=np.int32), np.zeros(0))
+    starts, index, costs = [], [], []
+    for d, names, cost in columns:
+        starts.append(len(index))
+        costs.append(cost)
+        rows = [row_of[n] for n in names] + [len(clients) + d]
+        rows += [n_rows + g for g, (name, span) in enumerate(gap_rows)
+                 if name in names and d in span]
+        index.extend(sorted(rows))
+    n_cols = len(columns)
+    highs.addCols(n_cols, np.array(costs), np.zeros(n_cols), np.ones(n_cols), len(index),
+                  np.array(starts, dtype=np.int32), np.array(index, dtype=np.int32),
+                  np.ones(len(index)))
+    import highspy
+
+    highs.changeColsIntegrality(n_cols, np.arange(n_cols, dtype=np.int32),
+                                np.full(n_cols, highspy.HighsVarType.kInteger))
+    highs.setOptionValue("mip_rel_gap", 0.0)
+    highs.setOptionValue("mip_abs_gap", 1e-9)
+    highs.run()
+    status = highs.getModelStatus()
+    if status == highspy.HighsModelStatus.kInfeasible:
+        raise Infeasible("no assignment of the week's visits to its days keeps every rule",
+                         explanation={"summary": "no assignment of the week's visits to its days "
+                                      "keeps every window, cap and gap"})
+    if status != highspy.HighsModelStatus.kOptimal:
+        raise SolverError("the week's set-partitioning model was not proven in time")
+    x = np.asarray(highs.getSolution().col_value)
+    by_name = {c.name: c for c in clients}
+    assignment: list[list[WeekClient]] = [[] for _ in range(n_days)]
+    for k in np.flatnonzero(x > 0.5):
+        d, names, _ = columns[int(k)]
+        assignment[d] = [by_name[n] for n in sorted(names)]
+    return assignment, {"columns": n_cols}
+
+
+class _DayCache:
+    """Exact day re-solves, remembered by (day, set of clients)."""
+
+    def __init__(self, problem, km, minutes, deadline):
+        self.problem, self.km, self.minutes, self.deadline = problem, km, minutes, deadline
+        self.known: dict[tuple[int, frozenset], float | None] = {}
+        self.solves = 0
+
+    def cost(self, day: int, clients: Sequence[WeekClient]) -> float | None:
+        """The day's proven least km for exactly these clients, or None if they do not fit."""
+        key = (day, frozenset(c.name for c in clients))
+        if key not in self.known:
+            spec = self.problem.days[day]
+            if spec.max_visits is not None and len(clients) > spec.max_visits:
+                self.known[key] = None
+                return None
+            if not clients:
+                self.known[key] = 0.0
+                return 0.0
+            self.solves += 1
+            try:
+                plan = plan_day(_day_problem(self.problem, self.km, self.minutes, day,
+                                             list(clients)),
+                                time_limit_s=max(1.0, min(10.0, self.deadline -
+                                                          time.perf_counter())))
+                fits = _day_cap_ok(spec, len(clients), plan.return_min)
+                self.known[key] = plan.total_km if fits else None
+            except Infeasible:
+                self.known[key] = None
+        return self.known[key]
+
+
+def _gap_ok(client: WeekClient, days_taken: Sequence[int], day: int) -> bool:
+    return all(abs(day - other) >= client.min_gap_days for other in days_taken)
+
+
+def _improved_assignment(problem, km, minutes, deadline):
+    n_days = len(problem.days)
+    cache = _DayCache(problem, km, minutes, deadline)
+    assignment: list[list[WeekClient]] = [[] for _ in range(n_days)]
+    taken: dict[str, list[int]] = {c.name: [] for c in problem.clients}
+    # The most constrained first, then the farthest from home (farthest insertion).
+    order = sorted(
+        (c for c in problem.clients for _ in range(c.visits)),
+        key=lambda c: (len(c.days_open(n_days)) - c.visits, -float(km[0, c.node]), c.name),
+    )
+    for client in order:
+        best = None
+        for d in client.days_open(n_days):
+            if client in assignment[d] or not _gap_ok(client, taken[client.name], d):
+                continue
+            before = cache.cost(d, assignment[d])
+            after = cache.cost(d, assignment[d] + [client])
+            if before is not None and after is not None and (best is None or
+                                                            after - before < best[0]):
+                best = (after - before, d)
+        if best is None:
+            raise Infeasible(
+                f"{client.name} fits on none of its days next to the visits already placed",
+                explanation={"summary": f"{client.name} could not be placed on any allowed day "
+                             "(windows, caps or the gap between visits)", "client": client.name})
+        assignment[best[1]].append(client)
+        taken[client.name].append(best[1])
+    moves = 0
+    improved = True
+    while improved and time.perf_counter() < deadline:
+        improved = False
+        for a, b in itertools.permutations(range(n_days), 2):
+            for client in list(assignment[a]):
+                if time.perf_counter() >= deadline:
+                    break
+                if b not in client.days_open(n_days) or client in assignment[b]:
+                    continue
+                others = [d for d in taken[client.name] if d != a]
+                if not _gap_ok(client, others, b):
+                    continue
+                old = cache.cost(a, assignment[a]) + cache.cost(b, assignment[b])
+                new_a = [c for c in assignment[a] if c is not client]
+                new_b = assignment[b] + [client]
+                ca, cb = cache.cost(a, new_a), cache.cost(b, new_b)
+                if ca is not None and cb is not None and ca + cb < old - 1e-6:
+                    assignment[a], assignment[b] = new_a, new_b
+                    taken[client.name] = others + [b]
+                    moves += 1
+                    improved = True
+        for a, b in itertools.combinations(range(n_days), 2):
+            for ca_client, cb_client in itertools.product(list(assignment[a]), list(assignment[b])):
+                if time.perf_counter() >= deadline:
+                    break
+                if ca_client not in assignment[a] or cb_client not in assignment[b]:
+                    continue
+                if (b not in ca_client.days_open(n_days) or a not in cb_client.days_open(n_days)
+                        or ca_client in assignment[b] or cb_client in assignment[a]):
+                    continue
+                if not (_gap_ok(ca_client, [d for d in taken[ca_client.name] if d != a], b)
+                        and _gap_ok(cb_client, [d for d in taken[cb_client.name] if d != b], a)):
+                    continue
+                old = cache.cost(a, assignment[a]) + cache.cost(b, assignment[b])
+                new_a = [c for c in assignment[a] if c is not ca_client] + [cb_client]
+                new_b = [c for c in assignment[b] if c is not cb_client] + [ca_client]
+                na, nb = cache.cost(a, new_a), cache.cost(b, new_b)
+                if na is not None and nb is not None and na + nb < old - 1e-6:
+                    assignment[a], assignment[b] = new_a, new_b
+                    taken[ca_client.name] = [d for d in taken[ca_client.name] if d != a] + [b]
+                    taken[cb_client.name] = [d for d in taken[cb_client.name] if d != b] + [a]
+                    moves += 1
+                    improved = True
+    stats = {"day_solves": cache.solves, "moves": moves,
+             "stopped": "time limit" if time.perf_counter() >= deadline else "no move helps"}
+    return assignment, stats
+
+
+def quote_week_days(problem: WeekProblem, plan: WeekPlan, client: WeekClient, *,
+                    from_day: int = 0) -> list[dict]:
+    """The added km of fitting ``client`` into each remaining allowed day, cheapest first.
+
+    Each figure is the difference of two proven day optima; days where it does
+    not fit are listed last with ``fits`` false.
+    """
+    km, minutes = _check(WeekProblem(problem.km, problem.minutes,
+                                     (*problem.clients, client), problem.days))
+    by_name = {c.name: c for c in problem.clients}
+    quotes = []
+    for d in range(from_day, len(problem.days)):
+        if d not in client.days_open(len(problem.days)):
+            continue
+        current = [by_name[n] for n in plan.assignment[d]]
+        base = plan.days[d].total_km if plan.days[d] is not None else 0.0
+        try:
+            day_plan = plan_day(_day_problem(problem, km, minutes, d, current + [client]),
+                                time_limit_s=10)
+            fits = _day_cap_ok(problem.days[d], len(current) + 1, day_plan.return_min)
+            quotes.append({"day": problem.days[d].name, "day_index": d, "fits": fits,
+                           "extra_km": day_plan.total_km - base,
+                           "return_min": day_plan.return_min,
+                           "proven_optimal": day_plan.proven_optimal})
+        except Infeasible:
+            quotes.append({"day": problem.days[d].name, "day_index": d, "fits": False,
+                           "extra_km": None, "return_min": None, "proven_optimal": True})
+    return sorted(quotes, key=lambda q: (not q["fits"], q["extra_km"] or 0.0))

@@ -38,6 +38,7 @@ __all__ = ["solve_dfj"]
 _LP_THRESHOLD = 2.0 - 1e-3  # fractional cuts weaker than this are left to the integer phase
 _MAX_LP_ROUNDS = 200
 _LP_SHARE_OF_TIME = 0.4  # root cutting may use this share of the time limit
+_KICKS_FROM_NODES = 40  # measured: below this, heuristic kicks cost more than they save
 
 
 class _Model:
@@ -186,10 +187,12 @@ def solve_dfj(
     _, abs_gap = proof_gaps(integral_costs=integral)
 
     if incumbent is None:
-        budget = heuristic_budget_s if heuristic_budget_s is not None else min(
-            0.002 * n, 0.1 * time_limit_s
+        # Small loops are closed by the LP in a few rounds; kicks only pay off on larger ones.
+        budget = heuristic_budget_s if heuristic_budget_s is not None else (
+            min(0.002 * n, 0.1 * time_limit_s) if n >= _KICKS_FROM_NODES else 0.0
         )
-        incumbent = iterated_local_search(cost, time_budget_s=budget, seed=seed)
+        incumbent = iterated_local_search(cost, time_budget_s=budget, seed=seed,
+                                          max_kicks=None if budget > 0 else 0)
     best_order = list(incumbent)
     best_len = loop_cost(cost, best_order)
     heuristic_len = best_len

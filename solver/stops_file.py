@@ -8,7 +8,12 @@ Columns (header names, case-insensitive; order free):
 - ``duration_min`` (optional): how long the visit lasts, minutes (default 0);
 - ``windows`` (optional): when the visit may start, e.g. ``09:00-12:00, 14:00-17:00``
   (empty: any time);
-- ``notes`` (optional): free text carried into exports.
+- ``notes`` (optional): free text carried into exports;
+- week columns, read by ``rondo week``: ``days`` (weekdays the client receives
+  visitors, e.g. ``Mon Wed Fri`` or ``Mon-Thu``; empty: every working day),
+  ``visits_per_week`` (default 1), ``min_gap_days`` (default 1), ``fixed_day``.
+
+Every cell is kept in :attr:`Stop.cells` (by lower-case column name).
 
 Errors name the line and column, e.g. "line 4, column lat: '123.4' ...".
 """
@@ -19,7 +24,7 @@ import csv
 import io
 import math
 import os
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from .clock import Window, parse_windows
@@ -40,6 +45,7 @@ class Stop:
     service_min: float = 0.0
     windows: tuple[Window, ...] = ()
     notes: str = ""
+    cells: dict[str, str] = field(default_factory=dict, compare=False)
 
 
 def read_stops_csv(source: str | os.PathLike) -> tuple[list[Stop], set[str]]:
@@ -103,7 +109,8 @@ def parse_stops_csv(text: str) -> tuple[list[Stop], set[str]]:
                                "duration; expected 0..1440 minutes",
                                field="duration_min", value=duration_text)
         windows = parse_windows(cell("windows"), field=f"{where}, column windows")
-        stops.append(Stop(name, position, float(service), windows, cell("notes")))
+        cells = {column: cell(column) for column in columns}
+        stops.append(Stop(name, position, float(service), windows, cell("notes"), cells))
     if not stops:
         raise InvalidInput("the stops file has a header but no rows", field="file")
     optional = {c for c in ("duration_min", "windows", "notes") if c in columns}

@@ -28,30 +28,39 @@ def build_parser() -> argparse.ArgumentParser:
     solve.add_argument("file", help=".tsp/.atsp TSPLIB file, a time-window benchmark .txt, "
                                     "or a stops CSV")
     solve.add_argument("--json", action="store_true", help="print one JSON object")
-    solve.add_argument("--time-limit", type=float, default=60.0, metavar="S",
-                       help="stop after S seconds and report the best plan with its gap")
     solve.add_argument("--method", default="auto",
                        choices=["auto", "dfj", "mtz", "held-karp", "heuristic"],
                        help="loop method (days with windows always use the exact day planner)")
-    solve.add_argument("--home", metavar="LAT,LON",
-                       help="home position; otherwise the first CSV row is home")
-    solve.add_argument("--distance", default="geodesic", choices=["geodesic", "great-circle"])
-    solve.add_argument("--detour", type=float, default=None, metavar="F",
-                       help="road km per straight-line km")
-    solve.add_argument("--speed", type=float, default=None, metavar="KMH",
-                       help="average driving speed")
     solve.add_argument("--cost", default="km", choices=["km", "minutes"],
                        help="what a plain loop minimises")
-    solve.add_argument("--day-start", metavar="HH:MM", help="departure from home")
-    solve.add_argument("--day-end", metavar="HH:MM", help="latest return home")
-    solve.add_argument("--objective", choices=["km", "return"], default="km",
-                       help="least driving (km) or earliest return home")
-    solve.add_argument("--break", dest="break_rule", metavar="MIN@HH:MM-HH:MM",
-                       help="a break of MIN minutes inside the given hours, e.g. 30@12:00-14:00")
-    solve.add_argument("--from", dest="from_", metavar="LAT,LON|NAME",
-                       help="re-plan from here: a position or the client where you stand")
-    solve.add_argument("--now", metavar="HH:MM", help="re-plan: the time now")
-    solve.add_argument("--done", metavar="NAME,...", help="re-plan: visits already done")
+    _add_stops_options(solve)
+    _add_day_options(solve)
+
+    export = sub.add_parser("export", help="plan a stops CSV and write it as ics, gpx or csv")
+    export.add_argument("file", help="a stops CSV")
+    export.add_argument("--format", required=True, choices=["ics", "gpx", "csv"])
+    export.add_argument("--output", metavar="FILE", help="write here instead of standard output")
+    export.add_argument("--date", metavar="YYYY-MM-DD", help="the planned day (default: today)")
+    export.add_argument("--tz", default="Europe/Vienna", metavar="ZONE",
+                        help="IANA time zone of the rep, for calendar times")
+    export.add_argument("--sequence", type=int, default=0,
+                        help="calendar SEQUENCE; raise it for every re-export of the same day")
+    export.add_argument("--travel", action="store_true", help="add a calendar event per drive")
+    export.add_argument("--alarm", type=int, default=None, metavar="MIN",
+                        help="remind MIN minutes before leaving for each visit")
+    _add_stops_options(export)
+    _add_day_options(export)
+
+    week = sub.add_parser("week", help="spread a stops CSV over the working days")
+    week.add_argument("file", help="a stops CSV with optional week columns")
+    week.add_argument("--json", action="store_true", help="print one JSON object")
+    week.add_argument("--days", default="Mon-Fri", help="working days, e.g. Mon-Fri or Mon Tue Thu")
+    week.add_argument("--max-visits", type=int, default=None, help="cap of visits per day")
+    week.add_argument("--max-work-min", type=float, default=None,
+                      help="cap of minutes from leaving home to coming back")
+    week.add_argument("--week-method", default="auto", choices=["auto", "exact", "improve"])
+    _add_stops_options(week)
+    _add_day_options(week, replan=False)
 
     serve = sub.add_parser("serve", help="serve the phone page on this laptop")
     serve.add_argument("--host", default="127.0.0.1")
@@ -61,6 +70,32 @@ def build_parser() -> argparse.ArgumentParser:
     serve.add_argument("--demo", action="store_true",
                        help="fill an empty database with the demo scenario")
     return parser
+
+
+def _add_stops_options(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--time-limit", type=float, default=60.0, metavar="S",
+                        help="stop after S seconds and report the best plan with its gap")
+    parser.add_argument("--home", metavar="LAT,LON",
+                        help="home position; otherwise the first CSV row is home")
+    parser.add_argument("--distance", default="geodesic", choices=["geodesic", "great-circle"])
+    parser.add_argument("--detour", type=float, default=None, metavar="F",
+                        help="road km per straight-line km")
+    parser.add_argument("--speed", type=float, default=None, metavar="KMH",
+                        help="average driving speed")
+
+
+def _add_day_options(parser: argparse.ArgumentParser, *, replan: bool = True) -> None:
+    parser.add_argument("--day-start", metavar="HH:MM", help="departure from home")
+    parser.add_argument("--day-end", metavar="HH:MM", help="latest return home")
+    parser.add_argument("--objective", choices=["km", "return"], default="km",
+                        help="least driving (km) or earliest return home")
+    parser.add_argument("--break", dest="break_rule", metavar="MIN@HH:MM-HH:MM",
+                        help="a break of MIN minutes inside the given hours, e.g. 30@12:00-14:00")
+    if replan:
+        parser.add_argument("--from", dest="from_", metavar="LAT,LON|NAME",
+                            help="re-plan from here: a position or the client where you stand")
+        parser.add_argument("--now", metavar="HH:MM", help="re-plan: the time now")
+        parser.add_argument("--done", metavar="NAME,...", help="re-plan: visits already done")
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -75,6 +110,14 @@ def main(argv: list[str] | None = None) -> int:
             from .cli_solve import run_solve
 
             payload, text = run_solve(args)
+        elif args.command == "export":
+            from .cli_export import run_export
+
+            return run_export(args)
+        elif args.command == "week":
+            from .cli_week import run_week
+
+            payload, text = run_week(args)
         else:  # pragma: no cover - argparse rejects unknown commands
             return EXIT_BAD_INPUT
     except Infeasible as why:

@@ -18,7 +18,7 @@ from solver.stops_file import Stop, read_stops_csv
 from solver.tsplib import read_tsplib
 from solver.tsptw_file import looks_like_tsptw, parse_tsptw
 
-__all__ = ["run_solve"]
+__all__ = ["run_solve", "read_home_and_stops", "plan_stops_day"]
 
 DEFAULT_DAY_START = "08:00"  # common practice, no source
 DEFAULT_DAY_END = "18:00"  # common practice, no source
@@ -96,8 +96,9 @@ def _window(ready, due):
     return Window(float(ready), float(due))
 
 
-def _solve_stops(path: Path, args) -> tuple[dict, str]:
-    stops, optional = read_stops_csv(path)
+def read_home_and_stops(args) -> tuple[Stop, list[Stop], set[str], object]:
+    """Home, the stops and the travel matrix of a stops CSV under the command's options."""
+    stops, optional = read_stops_csv(Path(args.file))
     if args.home:
         home = Stop("Home", parse_position(args.home, field="--home"))
     else:
@@ -108,6 +109,11 @@ def _solve_stops(path: Path, args) -> tuple[dict, str]:
         detour_factor=args.detour if args.detour is not None else DEFAULT_DETOUR_FACTOR,
         speed_kmh=args.speed if args.speed is not None else DEFAULT_SPEED_KMH,
     )
+    return home, stops, optional, matrix
+
+
+def _solve_stops(path: Path, args) -> tuple[dict, str]:
+    home, stops, optional, matrix = read_home_and_stops(args)
     day_mode = bool(optional & {"duration_min", "windows"}) or any(
         getattr(args, a) for a in ("day_start", "day_end", "from_", "now", "done", "break_rule")
     )
@@ -124,7 +130,8 @@ def _solve_stops(path: Path, args) -> tuple[dict, str]:
     return _solve_day(home, stops, matrix, args)
 
 
-def _solve_day(home: Stop, stops: list[Stop], matrix, args) -> tuple[dict, str]:
+def plan_stops_day(home: Stop, stops: list[Stop], matrix, args):
+    """The day plan of a stops CSV under the command's day and re-plan options."""
     visits = tuple(Visit(s.name, s.service_min, s.windows) for s in stops)
     rules = DayRules(
         parse_clock(args.day_start or DEFAULT_DAY_START, field="--day-start"),
@@ -157,6 +164,12 @@ def _solve_day(home: Stop, stops: list[Stop], matrix, args) -> tuple[dict, str]:
     problem = DayProblem(km, minutes, visits, rules, start_node=start_node, start_min=start_min,
                          todo=todo)
     plan = plan_day(problem, time_limit_s=args.time_limit)
+    here = parse_position(args.from_, field="--from") if start_node > len(stops) else None
+    return plan, here
+
+
+def _solve_day(home: Stop, stops: list[Stop], matrix, args) -> tuple[dict, str]:
+    plan, _ = plan_stops_day(home, stops, matrix, args)
     data = plan.as_dict()
     payload = {
         "length": plan.total_km,

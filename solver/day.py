@@ -55,6 +55,14 @@ class Visit:
     service_min: float = 0.0
     windows: tuple[Window, ...] = ()
 
+    def __post_init__(self) -> None:
+        # Windows are kept in time order: the earliest-start rule reads them in order.
+        try:
+            ordered = tuple(sorted(self.windows, key=lambda w: (w.start_min, w.end_min)))
+        except (AttributeError, TypeError):
+            return  # check_day_problem names the bad window
+        object.__setattr__(self, "windows", ordered)
+
 
 @dataclass(frozen=True)
 class BreakRule:
@@ -226,6 +234,12 @@ def check_day_problem(problem: DayProblem) -> tuple[np.ndarray, np.ndarray, list
             if not isinstance(w, Window):
                 raise InvalidInput(f"visit {visit.name!r} has a window {w!r} that is not a Window",
                                    field=f"{where}.windows", value=w)
+        for a, b in zip(visit.windows, visit.windows[1:], strict=False):
+            if b.start_min <= a.end_min:
+                raise InvalidInput(
+                    f"visit {visit.name!r} has overlapping windows {format_windows((a,))} and "
+                    f"{format_windows((b,))}; merge them", field=f"{where}.windows",
+                    value=format_windows(visit.windows))
     rules = problem.rules
     if rules.objective not in OBJECTIVES:
         raise InvalidInput(

@@ -80,8 +80,20 @@ def plan_day(problem: DayProblem, *, time_limit_s: float = 30.0, method: str = "
         if timed is not None:
             incumbent = timed
             if objective == "km" and relaxed.proven:
-                return _plan(problem, *timed, proven=True, bound=timed[1]["total_km"],
-                             started=started, method="loop-relaxation", stats=stats)
+                # Its km is optimal; among plans of equal km the search below finds the
+                # earliest return, pruned hard by this km. If that runs out of time the
+                # km stays proven and only the tie-break is unchecked.
+                tie_deadline = min(deadline, time.perf_counter() + max(1.0, 0.2 * time_limit_s))
+                try:
+                    found, stats = _label_search(problem, checked, tie_deadline, incumbent)
+                except _TimeUp:
+                    found = None
+                if found is None:
+                    return _plan(problem, *timed, proven=True, bound=timed[1]["total_km"],
+                                 started=started, method="loop-relaxation",
+                                 stats={"tie_break": "unchecked (time)"})
+                return _plan(problem, *found, proven=True, bound=found[1]["total_km"],
+                             started=started, method="loop-relaxation+labels", stats=stats)
     try:
         found, stats = _label_search(problem, checked, deadline, incumbent)
     except _TimeUp as stop:
@@ -404,17 +416,20 @@ def explain_infeasible(problem: DayProblem, *, time_limit_s: float = 5.0) -> dic
         if _best_timing(problem, [a, b], checked) is None and _best_timing(
                 problem, [b, a], checked) is None:
             pairs.append([name[a], name[b]])
-    forced = [j for j in todo if j not in alone_ok]
+    # Smallest set first. A visit that does not fit alone can still fit after another
+    # (a break taken elsewhere, a detour faster than the direct leg), so every visit is a
+    # candidate; those that fit nowhere are tried first within each size.
+    candidates = [j for j in todo if j not in alone_ok] + alone_ok
     move: list[str] | None = None
-    exact = len(alone_ok) <= _EXPLAIN_EXACT_MAX
+    exact = len(candidates) <= _EXPLAIN_EXACT_MAX
     try:
-        for size in range(0, len(alone_ok) + 1):
-            for subset in itertools.combinations(alone_ok, size):
-                rest = [j for j in alone_ok if j not in subset]
+        for size in range(0, len(candidates) + 1):
+            for subset in itertools.combinations(candidates, size):
+                rest = [j for j in todo if j not in subset]
                 if time.perf_counter() > deadline:
                     raise _TimeUp(0.0)
                 if _feasible(problem, rest, deadline):
-                    move = [name[j] for j in forced + list(subset)]
+                    move = [name[j] for j in subset]
                     break
             if move is not None or not exact:
                 break

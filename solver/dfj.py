@@ -288,6 +288,7 @@ def _highs_mip(model, cost, best_order, best_len, lp_bound, abs_gap, deadline, f
     bound = lp_bound
     mip_solves = 0
     nodes = 0
+    retried_without_presolve = False
     while time.perf_counter() < deadline:
         hint = highspy.HighsSolution()
         hint.col_value = model.vector_of(best_order).tolist()
@@ -298,20 +299,31 @@ def _highs_mip(model, cost, best_order, best_len, lp_bound, abs_gap, deadline, f
         nodes += int(info.mip_node_count)
         status = model.status()
         extra = {"mip_solves": mip_solves, "nodes": nodes}
-        if status == highspy.HighsModelStatus.kInfeasible:
-            # Only loops longer than the incumbent were cut off: the incumbent is optimal.
-            return best_order, best_len, True, best_len, extra
         if status != highspy.HighsModelStatus.kOptimal:
+            # A time limit, or an "infeasible" that cannot be right (the incumbent is a
+            # feasible point of this model): keep what is proven, claim nothing more.
             if np.isfinite(info.mip_dual_bound):
-                bound = max(bound, info.mip_dual_bound)
+                bound = max(bound, min(info.mip_dual_bound, best_len))
             return best_order, best_len, False, bound, extra
         x = np.asarray(model.highs.getSolution().col_value)
+        dual = float(info.mip_dual_bound)
+        reported = float(info.objective_function_value)
+        if abs(float(model.costs @ x) - reported) > 1e-6 * max(1.0, abs(reported)):
+            # Seen on zero-cost arcs after a MIP start: HiGHS reported the presolved optimum
+            # but handed back the start. Trust neither; solve again without presolve.
+            if retried_without_presolve:
+                return best_order, best_len, False, max(bound, min(dual, best_len)), extra
+            model.highs.setOptionValue("presolve", "off")
+            retried_without_presolve = True
+            continue
         cycles = model.cycles(x)
         if len(cycles) == 1:
             length = loop_cost(cost, cycles[0])
             if length < best_len:
                 best_order, best_len = cycles[0], length
-            return best_order, best_len, True, best_len, extra
+            # Proof is the solver's bound meeting the loop in hand, never the status alone.
+            proven = best_len - dual <= abs_gap + 1e-9
+            return best_order, best_len, proven, max(bound, min(dual, best_len)), extra
         bound = max(bound, info.objective_function_value)
         model.add_subtour_cuts([_smaller(c, n) for c in cycles])
         patched = local_search(cost, [v for cycle in cycles for v in cycle])

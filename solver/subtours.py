@@ -57,9 +57,13 @@ def violated_subtours(
     if len(groups) > 1:
         return [_smaller_side(g, n) for g in groups]
     merged, w_small = _shrink_unit_edges(w)
-    if len(merged) < 3:
+    if len(merged) == 1:
         return []
-    found = _stoer_wagner_phase_cuts(w_small, threshold)
+    if len(merged) == 2:
+        # Two groups left: their one cut is the only candidate.
+        found = [[0]] if w_small[0, 1] < threshold else []
+    else:
+        found = _stoer_wagner_phase_cuts(w_small, threshold)
     result: list[list[int]] = []
     seen: set[frozenset[int]] = set()
     for super_nodes in found:

@@ -14,7 +14,7 @@ STATIC_DIR = Path(__file__).resolve().parent.parent / "static"
 
 
 def create_app(test_config=None, *, instance_path=None):
-    """Build the app: defaults, then instance config or ``test_config``, then db, then blueprints."""
+    """Build the app: defaults, instance config or ``test_config``, db, then blueprints."""
     app = Flask(
         __name__,
         instance_relative_config=True,
@@ -25,7 +25,6 @@ def create_app(test_config=None, *, instance_path=None):
     app.config.from_mapping(
         DATABASE=os.path.join(app.instance_path, "rondo.sqlite"),
         MAX_CONTENT_LENGTH=2 * 1024 * 1024,  # a CSV of a few thousand clients fits easily
-        JSON_SORT_KEYS=False,
     )
     if test_config is None:
         app.config.from_pyfile("config.py", silent=True)
@@ -34,7 +33,9 @@ def create_app(test_config=None, *, instance_path=None):
     os.makedirs(app.instance_path, exist_ok=True)
 
     from . import api, db, errors, jobs, pages
+    from .fields import IdConverter
 
+    app.url_map.converters["id"] = IdConverter
     db.init_app(app)
     jobs.init_app(app)
     errors.init_app(app)

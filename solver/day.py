@@ -144,6 +144,18 @@ class DayPlan:
     def order(self) -> tuple[int, ...]:
         return tuple(v.node for v in self.visits)
 
+    @property
+    def leave_min(self) -> float:
+        """The latest departure that keeps every planned start: the first wait spent at home.
+
+        The times of the visits are those of leaving at ``start_min``; leaving at
+        ``leave_min`` instead only removes the first visit's wait (unless the break
+        was planned on arrival there, which the wait then holds).
+        """
+        if not self.visits or self.visits[0].break_before is not None:
+            return self.start_min
+        return self.start_min + self.visits[0].wait_min
+
     def as_dict(self) -> dict[str, Any]:
         """JSON-ready form; every time also as "HH:MM"."""
 
@@ -174,6 +186,8 @@ class DayPlan:
             "start_node": self.start_node,
             "start": format_clock(self.start_min),
             "start_min": self.start_min,
+            "leave": format_clock(self.leave_min),
+            "leave_min": self.leave_min,
             "return": format_clock(self.return_min),
             "return_min": self.return_min,
             "return_leg_km": round(self.return_leg_km, 3),

@@ -45,6 +45,7 @@ __all__ = [
     "explain_infeasible",
     "quote_extra_visit",
     "best_subset_routes",
+    "best_timing",
 ]
 
 DAY_METHODS = ("auto", "labels")
@@ -56,11 +57,14 @@ class _TimeUp(Exception):
     pass
 
 
-def plan_day(problem: DayProblem, *, time_limit_s: float = 30.0, method: str = "auto") -> DayPlan:
+def plan_day(problem: DayProblem, *, time_limit_s: float = 30.0, method: str = "auto",
+             explain: bool = True, tie_break: bool = True) -> DayPlan:
     """The plan with the least objective that keeps every rule, proven optimal.
 
-    Raises :class:`Infeasible` (with an explanation in the rep's words) when no
-    order keeps every window, the break and the return time. When the time limit
+    Raises :class:`Infeasible` (with an explanation in the rep's words, unless
+    ``explain`` is false) when no order keeps every window, the break and the
+    return time. ``tie_break`` false skips the search for the earliest return
+    among plans of equal least km (the km stays proven). When the time limit
     stops the search, returns the best plan known marked not proven, with a
     bound and a gap; raises SolverError if none was found in time.
     """
@@ -74,11 +78,17 @@ def plan_day(problem: DayProblem, *, time_limit_s: float = 30.0, method: str = "
     objective = problem.rules.objective
 
     incumbent, stats = None, {}
+    if _too_long_for_the_day(problem, minutes, todo, time_limit_s=max(0.1, 0.1 * time_limit_s)):
+        _raise_infeasible(problem, explain)
     relaxed = _relaxed_order(problem, km, todo, time_limit_s=max(0.1, 0.3 * time_limit_s))
     if relaxed is not None:
-        timed = _best_timing(problem, relaxed, checked)
+        timed = best_timing(problem, relaxed, checked)
         if timed is not None:
             incumbent = timed
+            if objective == "km" and relaxed.proven and not tie_break:
+                return _plan(problem, *timed, proven=True, bound=timed[1]["total_km"],
+                             started=started, method="loop-relaxation",
+                             stats={"tie_break": "not asked for"})
             if objective == "km" and relaxed.proven:
                 # Its km is optimal; among plans of equal km the search below finds the
                 # earliest return, pruned hard by this km. If that runs out of time the
@@ -105,11 +115,38 @@ def plan_day(problem: DayProblem, *, time_limit_s: float = 30.0, method: str = "
         return _plan(problem, *incumbent, proven=False, bound=bound, started=started,
                      method="labels", stats={"stopped": "time limit"})
     if found is None:
-        explanation = explain_infeasible(problem)
-        raise Infeasible(explanation["summary"], explanation=explanation)
+        _raise_infeasible(problem, explain)
     value = found[1]["total_km"] if objective == "km" else found[1]["return_min"]
     return _plan(problem, *found, proven=True, bound=value, started=started, method="labels",
                  stats=stats)
+
+
+def _raise_infeasible(problem: DayProblem, explain: bool):
+    if explain:
+        explanation = explain_infeasible(problem)
+        raise Infeasible(explanation["summary"], explanation=explanation)
+    raise Infeasible("no plan keeps every rule of the day",
+                     explanation={"summary": "no plan keeps every rule of the day"})
+
+
+def _too_long_for_the_day(problem: DayProblem, minutes: np.ndarray, todo: list[int], *,
+                          time_limit_s: float) -> bool:
+    """True when even the fastest order's driving plus all visit time overruns the day.
+
+    A proven lower bound on the driving minutes (the loop solver's bound on the
+    minutes matrix, windows ignored) plus every visit's duration and the break
+    cannot exceed the time from the start to the latest return in any plan.
+    """
+    if len(todo) < 2:
+        return False
+    rules = problem.rules
+    start = problem.start_min if problem.start_min is not None else rules.start_min
+    # The break is not counted: coming home early enough makes it unnecessary.
+    busy = sum(problem.visits[j - 1].service_min for j in todo)
+    fastest = _relaxed_order(problem, minutes, todo, time_limit_s=time_limit_s)
+    if fastest is None or not fastest.proven:
+        return False
+    return start + busy + fastest.bound > rules.end_min + 1e-6
 
 
 class _Relaxed(list):
@@ -122,6 +159,7 @@ def _relaxed_order(problem: DayProblem, km: np.ndarray, todo: list[int], *, time
     if not todo:
         result = _Relaxed([])
         result.proven = True
+        result.bound = float(km[start, 0])
         return result
     if start == 0:
         nodes = [0, *todo]
@@ -143,11 +181,16 @@ def _relaxed_order(problem: DayProblem, km: np.ndarray, todo: list[int], *, time
         order = order[1:]
     result = _Relaxed(order)
     result.proven = loop.proven_optimal
+    result.bound = loop.lower_bound  # the forced first leg costs nothing
     return result
 
 
-def _best_timing(problem: DayProblem, order: Sequence[int], checked):
-    """The feasible timing of ``order`` with the best objective over break placements."""
+def best_timing(problem: DayProblem, order: Sequence[int], checked=None):
+    """The feasible timing of ``order`` with the best objective over break placements.
+
+    Returns (planned visits, summary) or None when no placement keeps every rule.
+    """
+    checked = checked if checked is not None else check_day_problem(problem)
     options = [None] if problem.rules.break_rule is None or problem.break_taken else [
         None, *range(len(order) + 1)]
     best = None
@@ -402,7 +445,7 @@ def explain_infeasible(problem: DayProblem, *, time_limit_s: float = 5.0) -> dic
     name = {j: problem.visits[j - 1].name for j in todo}
     unreachable, alone_ok = [], []
     for j in todo:
-        if _best_timing(problem, [j], checked) is None:
+        if best_timing(problem, [j], checked) is None:
             _, _, summary = simulate(problem, [j], checked=checked)
             unreachable.append({
                 "name": name[j],
@@ -413,7 +456,7 @@ def explain_infeasible(problem: DayProblem, *, time_limit_s: float = 5.0) -> dic
             alone_ok.append(j)
     pairs = []
     for a, b in itertools.combinations(alone_ok, 2):
-        if _best_timing(problem, [a, b], checked) is None and _best_timing(
+        if best_timing(problem, [a, b], checked) is None and best_timing(
                 problem, [b, a], checked) is None:
             pairs.append([name[a], name[b]])
     # Smallest set first. A visit that does not fit alone can still fit after another
@@ -479,7 +522,7 @@ def quote_extra_visit(problem: DayProblem, plan: DayPlan, candidate_node: int, *
     order = list(plan.order)
     for pos in range(len(order) + 1):
         trial = order[:pos] + [candidate_node] + order[pos:]
-        timed = _best_timing(with_it, trial, checked_with)
+        timed = best_timing(with_it, trial, checked_with)
         if timed is not None:
             _, summary = timed
             extra_km = summary["total_km"] - plan.total_km

@@ -8,11 +8,9 @@ Two methods, chosen by size:
   programme then picks one set per day so that every client gets its visits,
   respecting allowed days, caps and gaps between repeated visits (Balinski &
   Quandt 1964, the set-partitioning view of vehicle routing). HiGHS proves it.
-- **improve** (larger weeks): cheapest feasible insertion across days (clients
-  with the fewest allowed days first, the farthest from home first), then moves
-  of one visit to another day and swaps of two, each judged by re-solving the
-  touched days exactly, until no move helps (a local optimum; each day's loop
-  is proven for its clients).
+- **improve** (larger weeks, :mod:`solver.week_improve`): cheapest feasible
+  insertion, then moves and swaps between days confirmed by exact re-solves,
+  until no move helps (a local optimum; each day's loop is proven for its clients).
 
 The lower bound of an improved week: the week uses at least k days (from the
 caps and repeated visits), and k loops from home through every client cost no
@@ -25,7 +23,6 @@ its cheapest leg.
 
 from __future__ import annotations
 
-import itertools
 import time
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -40,6 +37,7 @@ from .errors import Infeasible, InvalidInput, SolverError
 from .loop import solve_loop
 from .milp_backend import new_highs
 from .result import relative_gap
+from .week_improve import improve_week
 
 __all__ = [
     "WorkDay",
@@ -211,7 +209,23 @@ def plan_week(problem: WeekProblem, *, time_limit_s: float = 60.0,
         except SolverError as stopped:
             if method == "exact" or isinstance(stopped, Infeasible):
                 raise
-    assignment, stats = _improved_assignment(problem, km, minutes, deadline)
+    assignment, stats, pool = improve_week(problem, km, minutes, deadline,
+                                           day_problem=_day_problem, cap_ok=_day_cap_ok)
+    # Recombine every day set proven along the way: a set-partitioning pass over that pool
+    # can only keep or lower the week's km (the current week is one of its solutions).
+    try:
+        pooled, _ = _set_partition(problem, pool, time.perf_counter() + max(
+            1.0, min(10.0, deadline - time.perf_counter())))
+        pooled_km = sum(cost for d, names, cost in pool
+                        if names == frozenset(c.name for c in pooled[d]))
+        current_km = sum(cost for d, names, cost in pool
+                         if names == frozenset(c.name for c in assignment[d]))
+        if pooled_km < current_km - 1e-6:
+            assignment = pooled
+            stats["recombined"] = True
+    except SolverError:
+        pass
+    stats["pool_columns"] = len(pool)
     return _finish(problem, km, minutes, assignment, started, proven=False, method="improve",
                    stats=stats)
 
@@ -305,6 +319,13 @@ def _exact_assignment(problem, km, minutes, deadline):
             if _day_cap_ok(day, len(members), back):
                 names = frozenset(open_here[k - 1].name for k in members)
                 columns.append((d, names, float(km_total)))
+    return _set_partition(problem, columns, deadline)
+
+
+def _set_partition(problem, columns, deadline):
+    """The cheapest choice of one column (day, clients, km) per day covering every visit."""
+    n_days = len(problem.days)
+    columns = columns + [(d, frozenset(), 0.0) for d in range(n_days)]
     clients = list(problem.clients)
     row_of = {c.name: k for k, c in enumerate(clients)}
     n_rows = len(clients) + n_days
@@ -355,157 +376,6 @@ def _exact_assignment(problem, km, minutes, deadline):
         d, names, _ = columns[int(k)]
         assignment[d] = [by_name[n] for n in sorted(names)]
     return assignment, {"columns": n_cols}
-
-
-class _DayCache:
-    """Exact day re-solves, remembered by (day, set of clients)."""
-
-    def __init__(self, problem, km, minutes, deadline):
-        self.problem, self.km, self.minutes, self.deadline = problem, km, minutes, deadline
-        self.known: dict[tuple[int, frozenset], float | None] = {}
-        self.solves = 0
-
-    def cost(self, day: int, clients: Sequence[WeekClient]) -> float | None:
-        """The day's proven least km for exactly these clients, or None if they do not fit."""
-        key = (day, frozenset(c.name for c in clients))
-        if key not in self.known:
-            spec = self.problem.days[day]
-            if spec.max_visits is not None and len(clients) > spec.max_visits:
-                self.known[key] = None
-                return None
-            if not clients:
-                self.known[key] = 0.0
-                return 0.0
-            self.solves += 1
-            try:
-                plan = plan_day(_day_problem(self.problem, self.km, self.minutes, day,
-                                             list(clients)),
-                                time_limit_s=max(1.0, min(10.0, self.deadline -
-                                                          time.perf_counter())))
-                fits = _day_cap_ok(spec, len(clients), plan.return_min)
-                self.known[key] = plan.total_km if fits else None
-            except Infeasible:
-                self.known[key] = None
-            except SolverError:
-                # Not settled in the time given: treat as not fitting, which keeps the
-                # week feasible (never claims a day that was not proven to fit).
-                self.known[key] = None
-        return self.known[key]
-
-
-def _make_room(client, assignment, taken, cache, n_days):
-    """Move one placed visit to another day so ``client`` fits: (added km, day) or None."""
-    best = None
-    for d in client.days_open(n_days):
-        if client in assignment[d] or not _gap_ok(client, taken[client.name], d):
-            continue
-        base_d = cache.cost(d, assignment[d])
-        for other in assignment[d]:
-            stay = [c for c in assignment[d] if c is not other] + [client]
-            with_client = cache.cost(d, stay)
-            if with_client is None:
-                continue
-            for e in other.days_open(n_days):
-                if e == d or other in assignment[e]:
-                    continue
-                if not _gap_ok(other, [x for x in taken[other.name] if x != d], e):
-                    continue
-                before_e, after_e = cache.cost(e, assignment[e]), cache.cost(e,
-                                                                            assignment[e] + [other])
-                if before_e is None or after_e is None:
-                    continue
-                extra = with_client - base_d + after_e - before_e
-                if best is None or extra < best[0]:
-                    best = (extra, d, other, e)
-    if best is None:
-        return None
-    _, d, other, e = best
-    assignment[d].remove(other)
-    assignment[e].append(other)
-    taken[other.name] = [x for x in taken[other.name] if x != d] + [e]
-    return best[0], d
-
-
-def _gap_ok(client: WeekClient, days_taken: Sequence[int], day: int) -> bool:
-    return all(abs(day - other) >= client.min_gap_days for other in days_taken)
-
-
-def _improved_assignment(problem, km, minutes, deadline):
-    n_days = len(problem.days)
-    cache = _DayCache(problem, km, minutes, deadline)
-    assignment: list[list[WeekClient]] = [[] for _ in range(n_days)]
-    taken: dict[str, list[int]] = {c.name: [] for c in problem.clients}
-    # The most constrained first, then the farthest from home (farthest insertion).
-    order = sorted(
-        (c for c in problem.clients for _ in range(c.visits)),
-        key=lambda c: (len(c.days_open(n_days)) - c.visits, -float(km[0, c.node]), c.name),
-    )
-    for client in order:
-        best = None
-        for d in client.days_open(n_days):
-            if client in assignment[d] or not _gap_ok(client, taken[client.name], d):
-                continue
-            before = cache.cost(d, assignment[d])
-            after = cache.cost(d, assignment[d] + [client])
-            if before is not None and after is not None and (best is None or
-                                                            after - before < best[0]):
-                best = (after - before, d)
-        if best is None:
-            best = _make_room(client, assignment, taken, cache, n_days)
-        if best is None:
-            raise Infeasible(
-                f"{client.name} fits on none of its days next to the visits already placed",
-                explanation={"summary": f"{client.name} could not be placed on any allowed day "
-                             "(windows, caps or the gap between visits)", "client": client.name})
-        assignment[best[1]].append(client)
-        taken[client.name].append(best[1])
-    moves = 0
-    improved = True
-    while improved and time.perf_counter() < deadline:
-        improved = False
-        for a, b in itertools.permutations(range(n_days), 2):
-            for client in list(assignment[a]):
-                if time.perf_counter() >= deadline:
-                    break
-                if b not in client.days_open(n_days) or client in assignment[b]:
-                    continue
-                others = [d for d in taken[client.name] if d != a]
-                if not _gap_ok(client, others, b):
-                    continue
-                old = cache.cost(a, assignment[a]) + cache.cost(b, assignment[b])
-                new_a = [c for c in assignment[a] if c is not client]
-                new_b = assignment[b] + [client]
-                ca, cb = cache.cost(a, new_a), cache.cost(b, new_b)
-                if ca is not None and cb is not None and ca + cb < old - 1e-6:
-                    assignment[a], assignment[b] = new_a, new_b
-                    taken[client.name] = others + [b]
-                    moves += 1
-                    improved = True
-        for a, b in itertools.combinations(range(n_days), 2):
-            for ca_client, cb_client in itertools.product(list(assignment[a]), list(assignment[b])):
-                if time.perf_counter() >= deadline:
-                    break
-                if ca_client not in assignment[a] or cb_client not in assignment[b]:
-                    continue
-                if (b not in ca_client.days_open(n_days) or a not in cb_client.days_open(n_days)
-                        or ca_client in assignment[b] or cb_client in assignment[a]):
-                    continue
-                if not (_gap_ok(ca_client, [d for d in taken[ca_client.name] if d != a], b)
-                        and _gap_ok(cb_client, [d for d in taken[cb_client.name] if d != b], a)):
-                    continue
-                old = cache.cost(a, assignment[a]) + cache.cost(b, assignment[b])
-                new_a = [c for c in assignment[a] if c is not ca_client] + [cb_client]
-                new_b = [c for c in assignment[b] if c is not cb_client] + [ca_client]
-                na, nb = cache.cost(a, new_a), cache.cost(b, new_b)
-                if na is not None and nb is not None and na + nb < old - 1e-6:
-                    assignment[a], assignment[b] = new_a, new_b
-                    taken[ca_client.name] = [d for d in taken[ca_client.name] if d != a] + [b]
-                    taken[cb_client.name] = [d for d in taken[cb_client.name] if d != b] + [a]
-                    moves += 1
-                    improved = True
-    stats = {"day_solves": cache.solves, "moves": moves,
-             "stopped": "time limit" if time.perf_counter() >= deadline else "no move helps"}
-    return assignment, stats
 
 
 def quote_week_days(problem: WeekProblem, plan: WeekPlan, client: WeekClient, *,

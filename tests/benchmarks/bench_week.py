@@ -1,7 +1,7 @@
 """Weeks over five working days: time to the final plan and the gap to the lower bound.
 
 Run: .venv/bin/python tests/benchmarks/bench_week.py
-Clients uniform in a 60 km square around home, 20–45 min visits, a third of
+Clients uniform in a 40 km square around home, 15–30 min visits, a third of
 them receiving visitors on two or three weekdays only, days 08:00–18:00 with
 at most ``ceil(visits / 5) + 2`` visits; 50 km/h with a 1.3 detour factor.
 """
@@ -28,7 +28,7 @@ SIZES = [15, 20, 40, 60]
 
 def random_week(visits: int, seed: int) -> WeekProblem:
     rng = np.random.default_rng(seed)
-    p = rng.uniform(-30, 30, (visits + 1, 2))
+    p = rng.uniform(-20, 20, (visits + 1, 2))
     p[0] = 0.0
     km = np.sqrt(((p[:, None] - p[None]) ** 2).sum(-1)) * 1.3
     minutes = km / 50 * 60
@@ -38,7 +38,7 @@ def random_week(visits: int, seed: int) -> WeekProblem:
         if k % 3 == 0:
             allowed = tuple(sorted(rng.choice(5, size=int(rng.integers(2, 4)),
                                               replace=False).tolist()))
-        clients.append(WeekClient(f"c{k}", k, float(rng.integers(20, 46)), allowed_days=allowed))
+        clients.append(WeekClient(f"c{k}", k, float(rng.integers(15, 31)), allowed_days=allowed))
     cap = math.ceil(visits / 5) + 2
     days = tuple(WorkDay(name, DayRules(480.0, 1080.0), max_visits=cap)
                  for name in ("Mon", "Tue", "Wed", "Thu", "Fri"))

@@ -48,7 +48,7 @@ __all__ = [
     "best_timing",
 ]
 
-DAY_METHODS = ("auto", "labels")
+DAY_METHODS = ("auto", "labels", "milp")
 _EPS = 1e-7
 _EXPLAIN_EXACT_MAX = 14  # the smallest set of visits to move is searched exactly up to this size
 
@@ -76,6 +76,10 @@ def plan_day(problem: DayProblem, *, time_limit_s: float = 30.0, method: str = "
     km, minutes, todo = checked
     deadline = started + time_limit_s
     objective = problem.rules.objective
+    if method == "milp":
+        from .day_milp import plan_day_milp
+
+        return plan_day_milp(problem, time_limit_s=time_limit_s)
 
     incumbent, stats = None, {}
     if _too_long_for_the_day(problem, minutes, todo, time_limit_s=max(0.1, 0.1 * time_limit_s)):

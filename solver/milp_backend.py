@@ -59,6 +59,7 @@ def pulp_solver(*, backend: str = "highs", time_limit_s: float, integral_costs: 
     rel_gap, abs_gap = proof_gaps(integral_costs=integral_costs)
     time_limit_s = max(0.01, float(time_limit_s))
     if backend == "highs":
+        new_highs()  # HiGHS prints its banner once per process: let it go to /dev/null here
         solver = pulp.HiGHS(
             msg=False, timeLimit=time_limit_s, gapRel=rel_gap, gapAbs=abs_gap, threads=1
         )

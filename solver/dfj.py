@@ -237,7 +237,7 @@ def solve_dfj(
     stats["lp_rounds"] = rounds
     stats["root_bound"] = float(lp_bound)
 
-    if best_len - lp_bound <= abs_gap:
+    if _closed(best_len, lp_bound, abs_gap):
         return finish(best_order, best_len, proven=True, bound=best_len, mip_solves=0)
 
     # Phase 2: reduced-cost fixing against the incumbent.
@@ -322,7 +322,7 @@ def _highs_mip(model, cost, best_order, best_len, lp_bound, abs_gap, deadline, f
             if length < best_len:
                 best_order, best_len = cycles[0], length
             # Proof is the solver's bound meeting the loop in hand, never the status alone.
-            proven = best_len - dual <= abs_gap + 1e-9
+            proven = _closed(best_len, dual, abs_gap)
             return best_order, best_len, proven, max(bound, min(dual, best_len)), extra
         bound = max(bound, info.objective_function_value)
         model.add_subtour_cuts([_smaller(c, n) for c in cycles])
@@ -331,10 +331,16 @@ def _highs_mip(model, cost, best_order, best_len, lp_bound, abs_gap, deadline, f
         if patched_len < best_len:
             best_order, best_len = patched, patched_len
             fix_more(best_len, best_order)
-        if best_len - bound <= abs_gap:
+        if _closed(best_len, bound, abs_gap):
             return best_order, best_len, True, best_len, extra
     return best_order, best_len, False, bound, {"mip_solves": mip_solves, "nodes": nodes,
                                                  "integer_phase": "highs-mip"}
+
+
+def _closed(length: float, bound: float, abs_gap: float) -> bool:
+    """The bound meets the loop: within the proof gap, or within float noise of summing legs
+    (a loop's length summed in another order differs in the last bits)."""
+    return length - bound <= max(abs_gap, 1e-9 * max(1.0, abs(length)))
 
 
 def _smaller(cycle: list[int], n: int) -> list[int]:

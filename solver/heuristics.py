@@ -31,6 +31,7 @@ __all__ = [
 ]
 
 _IMPROVES = 1e-9  # a move must save more than this to count (floating-point noise)
+_NEIGHBOUR_LISTS_FROM = 30  # symmetric loops this large use the neighbour-list search
 
 
 def loop_cost(cost: np.ndarray, order: Sequence[int]) -> float:
@@ -191,7 +192,11 @@ def iterated_local_search(
         return list(range(n))
     deadline = time.perf_counter() + time_budget_s
     rng = random.Random(seed)
-    best = local_search(cost, start if start is not None else nearest_neighbour(cost))
+    first = list(start) if start is not None else nearest_neighbour(cost)
+    if n >= _NEIGHBOUR_LISTS_FROM and np.array_equal(cost, cost.T):
+        found = _symmetric_ils(cost, first, deadline=deadline, max_kicks=max_kicks, rng=rng)
+        return local_search(cost, found)
+    best = local_search(cost, first)
     best_len = loop_cost(cost, best)
     if n < 8:
         return best
@@ -217,3 +222,133 @@ def cheapest_insertion_position(cost: np.ndarray, order: Sequence[int], node: in
     added = cost[a, node] + cost[node, b] - cost[a, b]
     k = int(np.argmin(added))
     return k + 1, float(added[k])
+
+
+def _symmetric_ils(cost: np.ndarray, start: Sequence[int], *, deadline: float,
+                   max_kicks: int | None, rng: random.Random, neighbours: int = 10) -> list[int]:
+    """Iterated 2-opt + Or-opt for symmetric costs with neighbour lists and don't-look bits.
+
+    Bentley (1992), "Fast algorithms for geometric traveling salesman problems":
+    only the ``neighbours`` nearest cities are tried as new partners, and a city
+    whose surroundings did not change is not looked at again. Kicks are
+    segment-local double bridges, so each re-search touches few cities.
+    """
+    n = len(cost)
+    c = cost.tolist()
+    near = np.argsort(np.where(np.eye(n, dtype=bool), np.inf, cost), axis=1)[:, :neighbours]
+    near_list = near.tolist()
+    tour = list(start)
+    pos = [0] * n
+    for i, v in enumerate(tour):
+        pos[v] = i
+
+    def reverse(b: int, e: int) -> None:
+        """Reverse the path from city b to city e (in tour direction), the shorter way."""
+        i, j = pos[b], pos[e]
+        length = (j - i) % n + 1
+        if 2 * length > n:
+            i, j = (j + 1) % n, (i - 1) % n
+            length = n - length
+        for _ in range(length // 2):
+            tour[i], tour[j] = tour[j], tour[i]
+            pos[tour[i]], pos[tour[j]] = i, j
+            i = (i + 1) % n
+            j = (j - 1) % n
+
+    def improve_city(a: int) -> list[int] | None:
+        """Apply one improving move around city a; the cities whose edges changed, or None."""
+        for forward in (True, False):
+            b = tour[(pos[a] + 1) % n] if forward else tour[pos[a] - 1]
+            ab = c[a][b]
+            for x in near_list[a]:
+                gain1 = ab - c[a][x]
+                if gain1 <= _IMPROVES:
+                    break
+                if forward:
+                    y = tour[(pos[x] + 1) % n]
+                    if x == b or y == a:
+                        continue
+                    if gain1 + c[x][y] - c[b][y] > _IMPROVES:
+                        reverse(b, x)
+                        return [a, b, x, y]
+                else:
+                    y = tour[pos[x] - 1]
+                    if x == b or y == a:
+                        continue
+                    if gain1 + c[y][x] - c[y][b] > _IMPROVES:
+                        reverse(a, y)
+                        return [a, b, x, y]
+        # Or-opt: move the run of 1..3 cities starting at a (tour direction) elsewhere.
+        for length in (1, 2, 3):
+            if length + 3 > n:
+                break
+            i = pos[a]
+            seg = [tour[(i + k) % n] for k in range(length)]
+            p, nx = tour[i - 1], tour[(i + length) % n]
+            s1, sl = seg[0], seg[-1]
+            removed = c[p][s1] + c[sl][nx] - c[p][nx]
+            if removed <= _IMPROVES:
+                continue
+            inside = set(seg)
+            for end in (s1, sl):
+                for x in near_list[end]:
+                    if x in inside:
+                        continue
+                    y = tour[(pos[x] + 1) % n]
+                    if y in inside or x == p:
+                        continue
+                    fwd = c[x][s1] + c[sl][y] - c[x][y]
+                    bwd = c[x][sl] + c[s1][y] - c[x][y]
+                    if removed - min(fwd, bwd) > _IMPROVES:
+                        piece = seg if fwd <= bwd else seg[::-1]
+                        rest = [v for v in tour if v not in inside]
+                        at = rest.index(x) + 1
+                        tour[:] = rest[:at] + piece + rest[at:]
+                        for k, v in enumerate(tour):
+                            pos[v] = k
+                        return [p, nx, x, y, s1, sl]
+        return None
+
+    def search(active: list[int]) -> None:
+        queue = list(dict.fromkeys(active))
+        queued = set(queue)
+        while queue:
+            a = queue.pop()
+            queued.discard(a)
+            changed = improve_city(a)
+            if changed is not None:
+                for v in changed + [a]:
+                    if v not in queued:
+                        queue.append(v)
+                        queued.add(v)
+
+    def length() -> float:
+        return sum(c[tour[k - 1]][tour[k]] for k in range(n))
+
+    search(list(range(n)))
+    best, best_len = tour[:], length()
+    kicks = 0
+    while time.perf_counter() < deadline and (max_kicks is None or kicks < max_kicks):
+        kicks += 1
+        # A double bridge on a stretch of at most 50 positions, so only its cities move.
+        span = min(n, 50)
+        first = rng.randrange(n)
+        cuts = sorted(rng.sample(range(1, span), 3))
+        window = [tour[(first + k) % n] for k in range(span)]
+        p1, p2, p3 = cuts
+        window = window[:p1] + window[p2:p3] + window[p1:p2] + window[p3:]
+        for k, v in enumerate(window):
+            tour[(first + k) % n] = v
+            pos[v] = (first + k) % n
+        ends = [window[0], window[-1], window[p1 - 1], window[p1], window[p3 - p2 + p1 - 1],
+                window[p3 - p2 + p1], window[p3 - 1], window[min(p3, span - 1)]]
+        search([v for v in ends] + [tour[(first - 1) % n], tour[(first + span) % n]])
+        current = length()
+        if current < best_len - _IMPROVES:
+            best, best_len = tour[:], current
+        else:
+            tour[:] = best
+            for k, v in enumerate(tour):
+                pos[v] = k
+    home = best.index(0)
+    return best[home:] + best[:home]

@@ -17,7 +17,7 @@ __all__ = ["MINUTES_PER_DAY", "Window", "parse_clock", "format_clock", "parse_wi
            "format_windows"]
 
 MINUTES_PER_DAY = 24 * 60
-_CLOCK = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
+_CLOCK = re.compile(r"^\s*([0-9]{1,2}):([0-9]{2})\s*$")  # ASCII digits only
 _WINDOW_SPLIT = re.compile(r"\s*[-–]\s*")
 
 
@@ -81,7 +81,7 @@ def parse_windows(text: str, *, field: str = "windows") -> tuple[Window, ...]:
     if text is None or not str(text).strip():
         return ()
     windows = []
-    for part in re.split(r"[,;]|\s{2,}|\s(?=\d{1,2}:\d{2}\s*[-–])", str(text).strip()):
+    for part in re.split(r"[,;]|\s{2,}|\s(?=[0-9]{1,2}:[0-9]{2}\s*[-–])", str(text).strip()):
         part = part.strip()
         if not part:
             continue

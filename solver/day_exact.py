@@ -108,6 +108,11 @@ def plan_day(problem: DayProblem, *, time_limit_s: float = 30.0, method: str = "
                                  stats={"tie_break": "unchecked (time)"})
                 return _plan(problem, *found, proven=True, bound=found[1]["total_km"],
                              started=started, method="loop-relaxation+labels", stats=stats)
+    inserted = _insertion_plan(problem, todo, checked, deadline=min(
+        deadline, time.perf_counter() + 0.2 * time_limit_s))
+    if inserted is not None and (incumbent is None or _key(objective, inserted[1])
+                                 < _key(objective, incumbent[1])):
+        incumbent = inserted
     try:
         found, stats = _label_search(problem, checked, deadline, incumbent)
     except _TimeUp as stop:
@@ -151,6 +156,37 @@ def _too_long_for_the_day(problem: DayProblem, minutes: np.ndarray, todo: list[i
     if fastest is None or not fastest.proven:
         return False
     return start + busy + fastest.bound > rules.end_min + 1e-6
+
+
+def _insertion_plan(problem: DayProblem, todo: list[int], checked, *, deadline: float):
+    """A feasible plan by cheapest insertion, the most urgent visits first, or None.
+
+    Visits are taken by their latest possible start and each inserted where the
+    timed order grows least (Solomon 1987's insertion heuristic, with this day's
+    own timing rules); it only seeds the exact search with a bound and is the
+    answer shown when a time limit stops that search.
+    """
+    objective = problem.rules.objective
+
+    def urgency(j: int) -> tuple[float, float]:
+        windows = problem.visits[j - 1].windows
+        return (windows[-1].end_min, windows[0].start_min) if windows else (float("inf"), 0.0)
+
+    order: list[int] = []
+    timed = None
+    for j in sorted(todo, key=urgency):
+        best = None
+        for pos in range(len(order) + 1):
+            if time.perf_counter() > deadline:
+                return None
+            trial = order[:pos] + [j] + order[pos:]
+            found = best_timing(problem, trial, checked)
+            if found is not None and (best is None or _key(objective, found[1]) < best[0]):
+                best = (_key(objective, found[1]), trial, found)
+        if best is None:
+            return None
+        order, timed = best[1], best[2]
+    return timed
 
 
 class _Relaxed(list):
@@ -286,6 +322,22 @@ def _label_search(problem: DayProblem, checked, deadline: float, incumbent,
     def remaining_bound(mask: int) -> float:
         return sum(min_in[j] for j in todo if not mask & bit[j]) + min_home
 
+    def time_rest(mask: int, last: int) -> float:
+        # Any completion visits the farthest unvisited client and then comes home.
+        rest = [sp[last, j] + service[j] + sp[j, 0] for j in todo if not mask & bit[j]]
+        return max(rest) if rest else sp[last, 0]
+
+    def bound_now(layer) -> float:
+        """A valid bound on the objective from the labels still open (when time is up)."""
+        best_bound = float("inf")
+        for (mask, last), labels in layer.items():
+            if objective == "km":
+                rest = remaining_bound(mask)
+                best_bound = min(best_bound, min(lab[0] for lab in labels) + rest)
+            else:
+                best_bound = min(best_bound, min(lab[1] for lab in labels) + time_rest(mask, last))
+        return best_bound if np.isfinite(best_bound) else 0.0
+
     def limit(mask: int, last: int) -> float:
         # A label at (mask, last) must leave by this time to reach every unvisited client.
         lim = rules.end_min - sp[last, 0]
@@ -326,13 +378,14 @@ def _label_search(problem: DayProblem, checked, deadline: float, incumbent,
             subsets[0] = (empty[0], [], None)
     if every_subset or feasibility_only:
         upper = float("inf")
+    by_return = objective == "return" and np.isfinite(upper)
     for _ in range(m if max_size is None else min(m, max_size)):
         if time.perf_counter() > deadline:
-            raise _TimeUp(_layer_bound(layer, remaining_bound))
+            raise _TimeUp(bound_now(layer))
         new_layer: dict[tuple[int, int], tuple[float, float, list]] = {}
-        for count, ((mask, last), labels) in enumerate(layer.items()):
-            if count % 2048 == 2047 and time.perf_counter() > deadline:
-                raise _TimeUp(_layer_bound(layer, remaining_bound))
+        for (mask, last), labels in layer.items():
+            if time.perf_counter() > deadline:
+                raise _TimeUp(bound_now(layer))
             for j in todo:
                 if mask & bit[j]:
                     continue
@@ -340,7 +393,11 @@ def _label_search(problem: DayProblem, checked, deadline: float, incumbent,
                 key = (new_mask, j)
                 entry = new_layer.get(key)
                 if entry is None:
-                    entry = new_layer[key] = (limit(new_mask, j), remaining_bound(new_mask), [])
+                    lim = limit(new_mask, j)
+                    if by_return:
+                        # Leaving j later than this cannot beat the known return time.
+                        lim = min(lim, upper - time_rest(new_mask, j))
+                    entry = new_layer[key] = (lim, remaining_bound(new_mask), [])
                 lim, lb_rest, bucket = entry
                 leg_km, leg_min = km[last, j], minutes[last, j]
                 for km_so_far, t, owed, chain in labels:
@@ -404,16 +461,6 @@ def _insert(bucket: list, label: tuple) -> int:
     ]
     bucket.append(label)
     return 1
-
-
-def _layer_bound(layer, remaining_bound) -> float:
-    """A valid lower bound on the km of any plan, from the labels still open."""
-    best = float("inf")
-    for (mask, _), labels in layer.items():
-        rest = remaining_bound(mask)
-        for label in labels:
-            best = min(best, label[0] + rest)
-    return best if np.isfinite(best) else 0.0
 
 
 def _unwind(chain):

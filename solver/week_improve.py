@@ -72,7 +72,10 @@ class _Week:
             here = client.node
         t += minutes[here, 0]
         total += km[here, 0]
-        if t > spec.rules.end_min + 1e-9 or not self.cap_ok(spec, len(order), t):
+        end = spec.rules.end_min
+        if spec.max_work_min is not None:
+            end = min(end, spec.rules.start_min + spec.max_work_min)
+        if t > end + 1e-9 or not self.cap_ok(spec, len(order), t):
             return None
         return float(total)
 

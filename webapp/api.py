@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from flask import Blueprint, Response, jsonify, request, url_for
 
-from . import clients, drives, planning, plans, settings
-from .db import get_db
+from . import clients, drives, planning, plans, request_keys, settings
+from .db import get_db, transaction
 from .errors import FieldErrors
 from .fields import Checker, is_id, json_object, parse_date
 from .jobs import Job, registry
@@ -75,7 +75,8 @@ def get_client(client_id: int):
 
 @bp.put("/clients/<id:client_id>")
 def update_client(client_id: int):
-    return jsonify(clients.update(get_db(), client_id, json_object(allowed=clients.FIELDS)))
+    return jsonify(clients.update(get_db(), client_id,
+                                  json_object(allowed=clients.CHANGE_FIELDS)))
 
 
 @bp.get("/clients.csv")
@@ -135,7 +136,13 @@ def get_day(date_text: str):
 @bp.put("/days/<date_text>/visits")
 def set_visits(date_text: str):
     date = parse_date(date_text)
-    plans.set_choices(get_db(), date, json_object(allowed={"client_ids"}))
+    body = json_object(allowed={"client_ids"})
+    ids = body.get("client_ids")
+    if isinstance(ids, list) and len(ids) > planning.MAX_VISITS_PER_SOLVE:
+        # Refused before each id is looked up: a long list would hold the request for seconds.
+        raise FieldErrors.one("client_ids", f"client_ids lists {len(ids)} visits; a day takes "
+                              f"at most {planning.MAX_VISITS_PER_SOLVE}", len(ids))
+    plans.set_choices(get_db(), date, body)
     return jsonify(_view(date))
 
 
@@ -146,7 +153,14 @@ def add_visit(date_text: str):
     check = Checker(body)
     late = check.boolean("late") if "late" in body else True
     check.done()
-    plans.add_choice(get_db(), date, body.get("client_id"), late=late)
+    # A phone replaying its offline outbox sends an Idempotency-Key: applied at most once.
+    key = request_keys.read_key(request.headers)
+    conn, target = get_db(), f"POST {request.path}"
+    with transaction(conn):
+        if key is None or not request_keys.replayed(conn, key, target, body):
+            plans.add_choice(conn, date, body.get("client_id"), late=late)
+            if key is not None:
+                request_keys.remember(conn, key, target, body)
     return jsonify(_view(date)), 201
 
 

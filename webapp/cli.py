@@ -2,7 +2,7 @@
 
 Exit codes: 0 done, 2 bad input (one line naming the problem), 3 no feasible
 day plan (the explanation is printed), 4 the solver failed or ran out of time
-without any plan.
+without any plan, 5 the data folder is in use (restore while the server runs).
 """
 
 from __future__ import annotations
@@ -36,15 +36,22 @@ def build_parser() -> argparse.ArgumentParser:
     _add_stops_options(solve)
     _add_day_options(solve)
 
-    export = sub.add_parser("export", help="plan a stops CSV and write it as ics, gpx or csv")
-    export.add_argument("file", help="a stops CSV")
+    export = sub.add_parser("export", help="write a day as ics, gpx or csv: plan a stops CSV, "
+                                           "or take the plan stored for --date")
+    export.add_argument("file", nargs="?", help="a stops CSV; leave it out to export the plan "
+                                                "stored for --date in --data DIR")
     export.add_argument("--format", required=True, choices=["ics", "gpx", "csv"])
     export.add_argument("--output", metavar="FILE", help="write here instead of standard output")
-    export.add_argument("--date", metavar="YYYY-MM-DD", help="the planned day (default: today)")
-    export.add_argument("--tz", default="Europe/Vienna", metavar="ZONE",
-                        help="IANA time zone of the rep, for calendar times")
-    export.add_argument("--sequence", type=int, default=0,
-                        help="calendar SEQUENCE; raise it for every re-export of the same day")
+    export.add_argument("--date", metavar="YYYY-MM-DD",
+                        help="the planned day (default: today); without FILE, the stored day")
+    export.add_argument("--data", metavar="DIR", help="without FILE: the folder `rondo serve "
+                        "--data` uses (default: instance)")
+    export.add_argument("--tz", default=None, metavar="ZONE",
+                        help="IANA time zone of the rep, for calendar times (default: "
+                        "Europe/Vienna; a stored day uses its settings)")
+    export.add_argument("--sequence", type=int, default=None,
+                        help="calendar SEQUENCE; raise it for every re-export of the same day "
+                        "(a stored day keeps its own)")
     export.add_argument("--travel", action="store_true", help="add a calendar event per drive")
     export.add_argument("--alarm", type=int, default=None, metavar="MIN",
                         help="remind MIN minutes before leaving for each visit")
@@ -63,12 +70,24 @@ def build_parser() -> argparse.ArgumentParser:
     _add_day_options(week, replan=False)
 
     serve = sub.add_parser("serve", help="serve the phone page on this laptop")
-    serve.add_argument("--host", default="127.0.0.1")
+    serve.add_argument("--host", default=None,
+                       help="address to listen on (default 127.0.0.1; with --lan 0.0.0.0)")
     serve.add_argument("--port", type=int, default=8765)
     serve.add_argument("--data", default="instance", metavar="DIR",
                        help="folder for the database and everything the app writes")
     serve.add_argument("--demo", action="store_true",
                        help="fill an empty database with the demo scenario")
+    serve.add_argument("--tiles", metavar="URL", default=None,
+                       help="street-map tile URL template with {z}/{x}/{y}, fetched through "
+                       "this laptop (default: no street map)")
+    serve.add_argument("--tile-contact", metavar="EMAIL_OR_URL", default=None,
+                       help="who runs this server, sent to the tile server in the User-Agent")
+    serve.add_argument("--lan", action="store_true",
+                       help="serve the home network over HTTPS with this laptop's own "
+                       "certificate; only phones paired on the laptop's /pair page get in")
+    from .cli_backup import add_parsers as add_backup_parsers
+
+    add_backup_parsers(sub)
     return parser
 
 
@@ -89,6 +108,8 @@ def _add_day_options(parser: argparse.ArgumentParser, *, replan: bool = True) ->
     parser.add_argument("--day-end", metavar="HH:MM", help="latest return home")
     parser.add_argument("--objective", choices=["km", "return"], default="km",
                         help="least driving (km) or earliest return home")
+    parser.add_argument("--day-method", choices=["auto", "labels", "milp"], default="auto",
+                        help="exact day method: label-setting programme or the big-M MILP")
     parser.add_argument("--break", dest="break_rule", metavar="MIN@HH:MM-HH:MM",
                         help="a break of MIN minutes inside the given hours, e.g. 30@12:00-14:00")
     if replan:
@@ -101,16 +122,33 @@ def _add_day_options(parser: argparse.ArgumentParser, *, replan: bool = True) ->
 def main(argv: list[str] | None = None) -> int:
     args = build_parser().parse_args(argv)
     if args.command == "serve":
+        from .backup import DataInUse, server_lock
+        from .cli_backup import EXIT_IN_USE
         from .server import serve
 
-        serve(host=args.host, port=args.port, data_dir=args.data, demo=args.demo)
+        host = args.host or ("0.0.0.0" if args.lan else "127.0.0.1")
+        try:
+            with server_lock(args.data):  # while it is held, a restore refuses
+                serve(host=host, port=args.port, data_dir=args.data, demo=args.demo,
+                      tiles=args.tiles, tile_contact=args.tile_contact, lan=args.lan)
+        except DataInUse as busy:
+            print(f"rondo: {busy}", file=sys.stderr)
+            return EXIT_IN_USE
         return 0
+    if args.command in ("backup", "restore"):
+        from .cli_backup import run as run_backup
+
+        return run_backup(args)
     try:
         if args.command == "solve":
             from .cli_solve import run_solve
 
             payload, text = run_solve(args)
         elif args.command == "export":
+            from .cli_export_db import prepare_export, run_export_db
+
+            if prepare_export(args):
+                return run_export_db(args)
             from .cli_export import run_export
 
             return run_export(args)

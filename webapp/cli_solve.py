@@ -163,7 +163,8 @@ def plan_stops_day(home: Stop, stops: list[Stop], matrix, args):
     todo = tuple(k for k in range(1, len(stops) + 1) if k not in done)
     problem = DayProblem(km, minutes, visits, rules, start_node=start_node, start_min=start_min,
                          todo=todo)
-    plan = plan_day(problem, time_limit_s=args.time_limit)
+    plan = plan_day(problem, time_limit_s=args.time_limit,
+                    method=getattr(args, "day_method", "auto"))
     here = parse_position(args.from_, field="--from") if start_node > len(stops) else None
     return plan, here
 

@@ -7,17 +7,19 @@ import io
 
 from solver.clock import Window, format_windows, parse_windows
 
+from . import versions
 from .db import transaction
 from .errors import FieldErrors, NotFound
 from .fields import SKIP, Checker
 from .locations import position_json, read_location
 
-__all__ = ["WEEKDAYS", "FIELDS", "CSV_COLUMNS", "CLOSED", "list_clients", "get", "create",
-           "update", "windows_on", "export_csv", "import_csv", "as_json"]
+__all__ = ["WEEKDAYS", "FIELDS", "CHANGE_FIELDS", "CSV_COLUMNS", "CLOSED", "list_clients", "get",
+           "create", "update", "windows_on", "export_csv", "import_csv", "as_json"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")  # index = ISO weekday - 1
 CLOSED = "closed"
 FIELDS = {"name", "location", "visit_min", "windows", "notes", "active"}
+CHANGE_FIELDS = FIELDS | {versions.FIELD}  # a change may name the version it was made from
 CSV_COLUMNS = ("name", "lat", "lon", "visit_min", *WEEKDAYS, "notes", "active")
 MAX_NAME = 120
 MAX_NOTES = 2000
@@ -53,6 +55,7 @@ def as_json(row, hours: dict[str, str]) -> dict:
         "notes": row["notes"],
         "active": bool(row["active"]),
         "updated_at": row["updated_at"],
+        "version": row["version"],
     }
 
 
@@ -183,10 +186,13 @@ def _apply(conn, client_id: int, data: dict) -> None:
         columns["active"] = int(data["active"])
     if "location" in data:
         columns["lat"], columns["lon"] = data["location"].lat, data["location"].lon
-    if columns:
-        sets = ", ".join(f"{k} = ?" for k in columns)
-        conn.execute(f"UPDATE clients SET {sets}, updated_at = strftime('%Y-%m-%dT%H:%M:%SZ', "
-                     f"'now') WHERE id = ?", (*columns.values(), client_id))
+    if not columns and "windows" not in data:
+        return
+    # Hours live in their own tables, yet changing them is a change of the client too.
+    sets = "".join(f"{k} = ?, " for k in columns)
+    conn.execute(f"UPDATE clients SET {sets}version = version + 1, updated_at = "
+                 f"strftime('%Y-%m-%dT%H:%M:%SZ', 'now') WHERE id = ?",
+                 (*columns.values(), client_id))
     if "windows" in data:
         _write_windows(conn, client_id, data["windows"])
 
@@ -194,22 +200,29 @@ def _apply(conn, client_id: int, data: dict) -> None:
 def create(conn, body: dict) -> dict:
     check = Checker(body)
     data = _read(check, body, partial=False)
-    _check_name_free(conn, check, data.get("name"))
-    check.done()
+    # The name check holds the write lock, so two devices adding one name get one 422.
     with transaction(conn):
+        _check_name_free(conn, check, data.get("name"))
+        check.done()
         client_id = _insert(conn, data)
     return get(conn, client_id)
 
 
 def update(conn, client_id: int, body: dict) -> dict:
-    """Change the fields given; ``windows``, when given, replaces all seven weekdays."""
+    """Change the fields given; ``windows``, when given, replaces all seven weekdays.
+
+    With ``version`` the change applies only if the client is still at that version (409).
+    """
     get(conn, client_id)
     check = Checker(body)
+    expected = versions.read(check, body)
     data = _read(check, body, partial=True)
-    if "name" in data:
-        _check_name_free(conn, check, data["name"], client_id)
-    check.done()
+    # Checks and write under one lock: no other change can land between them.
     with transaction(conn):
+        if "name" in data:
+            _check_name_free(conn, check, data["name"], client_id)
+        check.done()
+        versions.ensure_current(expected, f"client {client_id}", lambda: get(conn, client_id))
         _apply(conn, client_id, data)
     return get(conn, client_id)
 
@@ -251,7 +264,7 @@ def import_csv(conn, text: str) -> dict:
         raise FieldErrors.one("file", f"the file has {len(body_rows)} rows; at most "
                               f"{MAX_IMPORT_ROWS} can be imported at once")
     errors: list[dict] = []
-    planned: list[tuple[int | None, dict]] = []
+    planned: list[dict] = []
     seen: dict[str, int] = {}
     for number, raw in enumerate(rows[1:], start=2):
         if not any(cell.strip() for cell in raw):
@@ -276,14 +289,16 @@ def import_csv(conn, text: str) -> dict:
             errors.append({**e, "field": f"line {number}: {e['field']}",
                            "message": f"line {number}: {e['message']}"})
         if not check.errors:
-            row = conn.execute("SELECT id FROM clients WHERE name = ? COLLATE NOCASE",
-                               (name,)).fetchone()
-            planned.append((row["id"] if row else None, data))
+            planned.append(data)
     if errors:
         raise FieldErrors(errors)
     created = updated = 0
     with transaction(conn):
-        for client_id, data in planned:
+        for data in planned:
+            # Matched under the write lock: a client added meanwhile is updated, not doubled.
+            row = conn.execute("SELECT id FROM clients WHERE name = ? COLLATE NOCASE",
+                               (data["name"],)).fetchone()
+            client_id = row["id"] if row else None
             if client_id is None:
                 _insert(conn, data)
                 created += 1

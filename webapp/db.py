@@ -21,7 +21,9 @@ __all__ = [
 
 # Step k (1-based) brings a database from user_version k-1 to k. Append, never edit:
 # a laptop may hold a database made by any earlier release.
-MIGRATIONS = ("schema.sql",)
+MIGRATIONS = ("schema.sql", "migration_002_day_exports.sql", "migration_003_paired_devices.sql",
+              "migration_004_week_plans.sql", "migration_005_request_keys.sql",
+              "migration_006_record_versions.sql")
 SCHEMA_VERSION = len(MIGRATIONS)
 BUSY_TIMEOUT_MS = 5000  # a solve worker and a request may write at the same moment
 
@@ -36,6 +38,9 @@ def connect(path: str) -> sqlite3.Connection:
     conn.row_factory = sqlite3.Row
     conn.execute("PRAGMA foreign_keys = ON")
     conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+    # FULL: a commit the server acknowledged is on disk, even if the laptop loses power
+    # (sqlite.org/pragma.html#pragma_synchronous); not left to how SQLite was compiled.
+    conn.execute("PRAGMA synchronous = FULL")
     return conn
 
 

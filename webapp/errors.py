@@ -4,14 +4,15 @@ from __future__ import annotations
 
 import logging
 
-from flask import jsonify, render_template, request
-from werkzeug.exceptions import HTTPException
+from flask import current_app, jsonify, make_response, render_template, request
+from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
 from solver.errors import Infeasible, InvalidInput, SolverError, SolverUnavailable
 
 __all__ = ["FieldErrors", "NotFound", "Conflict", "init_app", "error_body"]
 
 log = logging.getLogger(__name__)
+_REFUSALS = (401, 403, 429)  # not paired, not allowed, too many pairing attempts
 
 
 class FieldErrors(Exception):
@@ -37,7 +38,14 @@ class NotFound(Exception):
 
 
 class Conflict(Exception):
-    """The request is well formed but clashes with the stored state (e.g. a plan being solved)."""
+    """The request is well formed but clashes with the stored state (e.g. a plan being solved).
+
+    ``current``, when given, is the record as stored now, sent back so the change can be redone.
+    """
+
+    def __init__(self, message: str, *, current: dict | None = None):
+        super().__init__(message)
+        self.current = current
 
 
 def _jsonable(value):
@@ -67,14 +75,28 @@ def error_body(exc: Exception) -> tuple[dict, int]:
             body["fields"] = [{"field": exc.field, "message": str(exc), "value": exc.key}]
         return body, 404
     if isinstance(exc, Conflict):
-        return {"error": "conflict", "message": str(exc)}, 409
+        body = {"error": "conflict", "message": str(exc)}
+        if getattr(exc, "current", None) is not None:
+            body["current"] = exc.current
+        return body, 409
     if isinstance(exc, SolverUnavailable):
         return {"error": "solver_unavailable", "message": str(exc)}, 503
     if isinstance(exc, SolverError):
         return {"error": "solver_error", "message": str(exc)}, 422
+    if isinstance(exc, RequestEntityTooLarge):
+        return _too_large(), 413
     if isinstance(exc, HTTPException):
         return {"error": exc.name.lower().replace(" ", "_"), "message": exc.description}, exc.code
     return {"error": "internal", "message": "something went wrong on the laptop; see its log"}, 500
+
+
+def _too_large() -> dict:
+    """Name the limit, so the rep knows to send a smaller file rather than try again."""
+    limit = current_app.config.get("MAX_CONTENT_LENGTH")
+    size = f"at most {limit / 2**20:g} MiB" if limit else "less"
+    message = f"the request is too large; this server takes {size} in one request"
+    return {"error": "request_entity_too_large", "message": message,
+            "fields": [{"field": "body", "message": message, "value": request.content_length}]}
 
 
 def _respond(exc: Exception):
@@ -83,12 +105,22 @@ def _respond(exc: Exception):
         log.error("unexpected error on %s %s", request.method, request.path, exc_info=exc)
     if request.path.startswith("/api/") or request.path == "/api":
         response = jsonify(body)
+    elif status in _REFUSALS:
+        # A device that is not let in gets a page without the tab bar of screens it cannot open.
+        response = render_template("pair.html", view="refused", error=body, status=status)
     else:
         from .pages import SCREENS
 
         response = render_template("error.html", error=body, status=status, screens=SCREENS,
                                    screen="error", is_demo=False, has_home=True)
-    return response, status
+    response = make_response(response, status)
+    if isinstance(exc, HTTPException):
+        # The status's own fields: WWW-Authenticate for 401 (RFC 9110 §15.5.2), Allow for 405
+        # (§15.5.6), Retry-After for 429 (RFC 6585 §4).
+        for name, value in exc.get_headers():
+            if name.lower() != "content-type":
+                response.headers[name] = value
+    return response
 
 
 def init_app(app) -> None:

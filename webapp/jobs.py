@@ -14,6 +14,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from flask import current_app
+from werkzeug.exceptions import TooManyRequests
 
 from .db import connect
 from .errors import NotFound, error_body
@@ -23,6 +24,9 @@ __all__ = ["Job", "JobRegistry", "init_app", "registry"]
 log = logging.getLogger(__name__)
 MAX_KEPT = 200  # finished jobs remembered for late polls
 WORKERS = 2  # one per core: each solve is single-threaded
+# Solves running or waiting for a worker, superseded ones included (they run to their limit).
+# Beyond this a new one would wait many time limits; it is refused with 429 (RFC 6585 §4).
+MAX_WAITING = 16
 
 
 @dataclass
@@ -62,8 +66,16 @@ class JobRegistry:
         self.threads: list[threading.Thread] = []
 
     def submit(self, job: Job) -> Job:
-        """Start ``job``; an older unfinished job with the same key is cancelled (superseded)."""
+        """Start ``job``; an older unfinished job with the same key is cancelled (superseded).
+
+        Refused with 429, changing nothing, while MAX_WAITING solves are running or waiting.
+        """
         with self.lock:
+            self.threads = [t for t in self.threads if t.is_alive()]
+            if len(self.threads) >= MAX_WAITING:
+                raise TooManyRequests(
+                    f"{len(self.threads)} solves are running or waiting for the laptop; try "
+                    "again when one has finished", retry_after=max(1, round(job.time_limit_s)))
             for other in self.jobs.values():
                 if other.key == job.key and other.state in ("queued", "running"):
                     other.state = "cancelled"
@@ -72,7 +84,7 @@ class JobRegistry:
                 self.jobs.popitem(last=False)
             thread = threading.Thread(target=self._run, args=(job,), daemon=True,
                                       name=f"rondo-{job.kind}-{job.id[:6]}")
-            self.threads = [t for t in self.threads if t.is_alive()] + [thread]
+            self.threads.append(thread)
         thread.start()
         return job
 

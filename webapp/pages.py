@@ -13,8 +13,8 @@ __all__ = ["bp", "SCREENS"]
 bp = Blueprint("pages", __name__)
 
 # (endpoint, tab label) in the order of the bottom bar.
-SCREENS = (("pages.day", "Day"), ("pages.book", "Clients"), ("pages.drives", "Drives"),
-           ("pages.setup", "Setup"))
+SCREENS = (("pages.day", "Day"), ("pages.week", "Week"), ("pages.book", "Clients"),
+           ("pages.drives", "Drives"), ("pages.setup", "Setup"))
 
 # Only the app's own files may load; nothing leaves the laptop, no inline script runs.
 _CSP = ("default-src 'self'; script-src 'self'; style-src 'self'; img-src 'self' data:; "
@@ -49,6 +49,14 @@ def day():
     if date_text:
         parse_date(date_text)  # a bad date in the address gets the error page, not a blank day
     return _render("day.html", "day", date=date_text or "")
+
+
+@bp.get("/week")
+def week():
+    date_text = request.args.get("week")
+    if date_text:
+        parse_date(date_text, field="week")  # any day of the week; the page finds its Monday
+    return _render("week.html", "week", week=date_text or "")
 
 
 @bp.get("/clients")

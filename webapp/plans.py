@@ -88,9 +88,13 @@ def set_choices(conn, date: dt.date, body: dict) -> None:
     check.done()
     with transaction(conn):
         pid = plan_id(conn, date, create=True)
-        marks = ",".join("?" * len(ids)) or "NULL"
-        conn.execute(f"DELETE FROM plan_choices WHERE plan_id = ? AND client_id NOT IN ({marks})",
-                     (pid, *ids))
+        if ids:
+            marks = ",".join("?" * len(ids))
+            conn.execute(f"DELETE FROM plan_choices WHERE plan_id = ? AND client_id NOT IN "
+                         f"({marks})", (pid, *ids))
+        else:
+            # "NOT IN (NULL)" matches no row, so an empty choice needs its own statement.
+            conn.execute("DELETE FROM plan_choices WHERE plan_id = ?", (pid,))
         for cid in ids:
             conn.execute("INSERT OR IGNORE INTO plan_choices (plan_id, client_id) VALUES (?, ?)",
                          (pid, cid))
@@ -234,6 +238,8 @@ def _plan_entry(inputs: dict, plan: dict) -> dict:
         prev = node
     return {
         "visits": visits,
+        # The latest departure that keeps every start (older stored plans lack it).
+        "leave": plan.get("leave"),
         "return": plan["return"],
         "return_min": plan["return_min"],
         "return_leg_km": plan["return_leg_km"],

@@ -9,6 +9,7 @@ from solver.clock import format_clock
 from solver.day import OBJECTIVES
 from solver.distances import DISTANCE_MODES, build_travel_matrix
 
+from . import versions
 from .db import transaction
 from .fields import SKIP, Checker
 from .locations import position_json, read_location
@@ -17,7 +18,7 @@ __all__ = ["FIELDS", "load", "as_json", "update", "MAX_TIME_LIMIT_S"]
 
 FIELDS = {"rep_name", "home_label", "home", "day_start", "day_end", "break_min", "break_from",
           "break_until", "speed_kmh", "detour_factor", "distance_mode", "objective",
-          "time_zone", "time_limit_s"}
+          "time_zone", "time_limit_s", versions.FIELD}
 MAX_TIME_LIMIT_S = 300.0  # the page keeps polling; five minutes is the most a rep will wait
 MAX_BREAK_MIN = 480
 
@@ -46,14 +47,38 @@ def as_json(row: dict) -> dict:
         "time_zone": row["time_zone"],
         "time_limit_s": row["time_limit_s"],
         "is_demo": bool(row["is_demo"]),
+        "version": row["version"],
     }
 
 
 def update(conn, body: dict) -> dict:
-    """Change the fields given in ``body`` (others keep their value); all or nothing."""
-    current = load(conn)
-    new = dict(current)
+    """Change the fields given in ``body`` (others keep their value); all or nothing.
+
+    With ``version`` the change applies only if the settings are still at that version (409).
+    """
     check = Checker(body)
+    expected = versions.read(check, body)
+    # Read, merge and write under one lock: two devices changing different fields keep both.
+    with transaction(conn):
+        current = load(conn)
+        new = _merged(check, body, current)
+        versions.ensure_current(expected, "the settings", lambda: as_json(current))
+        conn.execute(
+            "UPDATE settings SET rep_name=?, home_label=?, home_lat=?, home_lon=?, "
+            "day_start_min=?, day_end_min=?, break_min=?, break_from_min=?, break_until_min=?, "
+            "speed_kmh=?, detour_factor=?, distance_mode=?, objective=?, time_zone=?, "
+            "time_limit_s=?, version = version + 1 WHERE id = 1",
+            (new["rep_name"], new["home_label"], new["home_lat"], new["home_lon"],
+             new["day_start_min"], new["day_end_min"], new["break_min"], new["break_from_min"],
+             new["break_until_min"], new["speed_kmh"], new["detour_factor"],
+             new["distance_mode"], new["objective"], new["time_zone"], new["time_limit_s"]),
+        )
+    return load(conn)
+
+
+def _merged(check: Checker, body: dict, current: dict) -> dict:
+    """The stored row with the fields of ``body`` put in; every mistake raises at once."""
+    new = dict(current)
     if check.has("rep_name"):
         new["rep_name"] = check.text("rep_name", max_len=80)
     if check.has("home_label"):
@@ -92,18 +117,7 @@ def update(conn, body: dict) -> dict:
     check.done()
     _check_day(check, new)
     check.done()
-    with transaction(conn):
-        conn.execute(
-            "UPDATE settings SET rep_name=?, home_label=?, home_lat=?, home_lon=?, "
-            "day_start_min=?, day_end_min=?, break_min=?, break_from_min=?, break_until_min=?, "
-            "speed_kmh=?, detour_factor=?, distance_mode=?, objective=?, time_zone=?, "
-            "time_limit_s=? WHERE id = 1",
-            (new["rep_name"], new["home_label"], new["home_lat"], new["home_lon"],
-             new["day_start_min"], new["day_end_min"], new["break_min"], new["break_from_min"],
-             new["break_until_min"], new["speed_kmh"], new["detour_factor"],
-             new["distance_mode"], new["objective"], new["time_zone"], new["time_limit_s"]),
-        )
-    return load(conn)
+    return new
 
 
 def _time_zone(check: Checker, value):

@@ -11,8 +11,12 @@ const Rondo = (() => {
     }
   }
 
-  async function api(method, path, body) {
-    const options = { method, headers: { Accept: "application/json" } };
+  /* One request to the laptop. extra: {headers, signal, meta}; meta.savedAt is set when the
+     answer is the copy the service worker saved on the phone (static/sw.js). */
+  async function send(method, path, body, extra) {
+    const more = extra || {};
+    const options = { method, headers: { Accept: "application/json", ...(more.headers || {}) } };
+    if (more.signal) options.signal = more.signal;
     if (body !== undefined) {
       options.headers["Content-Type"] = "application/json";
       options.body = JSON.stringify(body);
@@ -23,11 +27,18 @@ const Rondo = (() => {
     } catch (err) {
       throw new ApiError(0, { message: "The laptop does not answer. Is Rondo running there?" });
     }
+    if (more.meta) more.meta.savedAt = response.headers.get("X-Rondo-Copy-Saved-At");
     const text = await response.text();
     let data = null;
     try { data = text ? JSON.parse(text) : null; } catch (err) { data = { message: text }; }
     if (!response.ok) throw new ApiError(response.status, data);
     return data;
+  }
+
+  /* What the screens call: through the offline outbox (static/js/offline.js) when loaded. */
+  function api(method, path, body) {
+    const outbox = window.RondoOffline;
+    return outbox ? outbox.route(method, path, body) : send(method, path, body);
   }
 
   /* el("li", {class: "x", onclick: fn}, "text", child...) */
@@ -185,6 +196,6 @@ const Rondo = (() => {
     return Number.isFinite(n) ? n : t;
   }
 
-  return { ApiError, api, el, svg, toast, clearErrors, showErrors, todayISO, nowHHMM, clock, km,
+  return { ApiError, api, send, el, svg, toast, clearErrors, showErrors, todayISO, nowHHMM, clock, km,
     minutes, signed, follow, echoLocation, latLonWords, formValues, numberOrRaw };
 })();

@@ -97,9 +97,14 @@
       $("totals").replaceChildren();
       stops.replaceChildren();
       $("timeline").replaceChildren();
+      renderMap(null);
+      $("export-slot").hidden = true;
       return;
     }
     proofLine(plan);
+    renderMap(plan);
+    $("export-slot").hidden = false;
+    const placed = new Map(view.choices.map((c) => [c.client_id, c]));
     const t = plan.totals;
     const total = (label, value, id) => el("div", {}, el("dt", {}, label), el("dd", { id }, value));
     $("totals").replaceChildren(
@@ -111,7 +116,9 @@
     const doneIds = new Set(view.done.map((d) => d.client_id));
     const rows = [el("li", {}, el("div", { class: "head" }, el("span", { class: "num home-mark" }, "\u25b6"),
       el("div", { class: "body" }, el("div", { class: "name" }, `Leave ${plan.start.label}`),
-        el("div", { class: "times" }, plan.start.clock))))];
+        el("div", { class: "times" }, plan.leave && plan.leave !== plan.start.clock
+          ? `${plan.leave} (free from ${plan.start.clock}; leaving later only saves waiting)`
+          : plan.start.clock))))];
     for (const v of plan.visits) {
       const done = doneIds.has(v.client_id);
       const waits = [];
@@ -125,7 +132,8 @@
             el("div", { class: "name" }, v.name),
             el("div", { class: "times" }, `${v.arrive} arrive \u00b7 ${v.start}\u2013${v.depart} visit`),
             waits.length ? el("div", { class: "waits" }, waits.join(" \u00b7 ")) : null,
-            el("div", { class: "win" }, v.windows ? `may start ${v.windows}` : "any time")),
+            el("div", { class: "win" }, v.windows ? `may start ${v.windows}` : "any time"),
+            placed.has(v.client_id) ? navLink(placed.get(v.client_id), v.name) : null),
           done ? null : el("button", { type: "button", class: "button small done-btn",
             "aria-label": `Mark ${v.name} done`, onclick: () => openDone(v) }, "Done"))));
     }
@@ -133,9 +141,100 @@
       el("div", { class: `leg${plan.return_leg_entered ? " entered" : ""}` }, `\u2193 ${km(plan.return_leg_km)} \u00b7 ${minutes(plan.return_leg_min)}`),
       el("div", { class: "head" }, el("span", { class: "num home-mark" }, "\u25a0"),
         el("div", { class: "body" }, el("div", { class: "name" }, `Back at ${state.settings.home_label}`),
-          el("div", { class: "times" }, `${plan.return} (home by ${plan.day_end})`)))));
+          el("div", { class: "times" }, `${plan.return} (home by ${plan.day_end})`),
+          state.settings.home ? navLink(state.settings.home, state.settings.home_label) : null))));
     stops.replaceChildren(...rows);
     RondoTimeline.draw($("timeline"), plan, state.settings.day_start);
+  }
+
+  /* RFC 5870 geo: URI, at most 6 decimals (about 0.1 m), trailing zeros dropped. */
+  function geoUri(lat, lon) {
+    const part = (x) => { const t = x.toFixed(6).replace(/\.?0+$/, ""); return t === "-0" ? "0" : t; };
+    return `geo:${part(lat)},${part(lon)}`;
+  }
+
+  /* Hands the stop to the phone's own maps or navigation app. */
+  function navLink(where, name) {
+    return el("a", { class: "button small secondary nav-link", href: geoUri(where.lat, where.lon),
+      "aria-label": `Open ${name} in your maps app` }, "Open in maps app");
+  }
+
+  /* The map page of the latest plan; a new solve id means a new loop to draw. */
+  function renderMap(plan) {
+    const frame = $("day-map");
+    $("map-slot").hidden = !plan;
+    if (!plan) {
+      if (frame.getAttribute("src")) frame.removeAttribute("src");
+      return;
+    }
+    const src = `/days/${encodeURIComponent(dateInput.value)}/map?solve=${encodeURIComponent(plan.solve_id)}`;
+    if (frame.getAttribute("src") !== src) frame.setAttribute("src", src);
+  }
+
+  /* ---- files to take along ---- */
+
+  function mondayOf(iso) {
+    const d = new Date(`${iso}T12:00:00`);
+    d.setDate(d.getDate() - ((d.getDay() + 6) % 7));
+    const pad = (n) => String(n).padStart(2, "0");
+    return `${d.getFullYear()}-${pad(d.getMonth() + 1)}-${pad(d.getDate())}`;
+  }
+
+  function exportUrl(kind) {
+    const query = new URLSearchParams();
+    if (kind === "ics" || kind === "week") {
+      if ($("export-travel").checked) query.set("travel", "1");
+      if ($("export-alarm").value) query.set("alarm", $("export-alarm").value);
+    }
+    const path = kind === "week" ? `/api/weeks/${encodeURIComponent(mondayOf(dateInput.value))}/export.ics`
+      : dayPath(`/export.${kind}`);
+    return query.toString() ? `${path}?${query}` : path;
+  }
+
+  function fileName(response, fallback) {
+    const match = /filename="([^"]+)"/.exec(response.headers.get("Content-Disposition") || "");
+    return match ? match[1] : fallback;
+  }
+
+  async function takeAlong(kind) {
+    const scope = $("export-slot");
+    clearErrors(scope);
+    let response;
+    try {
+      response = await fetch(exportUrl(kind), { headers: { Accept: "*/*" } });
+    } catch (err) {
+      toast("The laptop does not answer. Is Rondo running there?", true);
+      return;
+    }
+    if (!response.ok) {
+      let body = {};
+      try { body = await response.json(); } catch (err) { /* not JSON */ }
+      showErrors(scope, new Rondo.ApiError(response.status, body));
+      return;
+    }
+    const blob = await response.blob();
+    const name = fileName(response, `rondo-${dateInput.value}.${kind === "week" ? "ics" : kind}`);
+    const file = new File([blob], name, { type: blob.type });
+    // Web Share Level 2: only share what the browser says it can share as a file.
+    if (navigator.canShare && navigator.share && navigator.canShare({ files: [file] })) {
+      try {
+        await navigator.share({ files: [file], title: name });
+        return;
+      } catch (err) {
+        if (err.name === "AbortError") return;
+      }
+    }
+    const href = URL.createObjectURL(file);
+    const link = el("a", { href, download: name, hidden: true });
+    document.body.append(link);
+    link.click();
+    link.remove();
+    setTimeout(() => URL.revokeObjectURL(href), 60000);
+    toast(`Saved ${name}.`);
+  }
+
+  for (const button of document.querySelectorAll("[data-export]")) {
+    button.addEventListener("click", () => takeAlong(button.dataset.export));
   }
 
   function renderDone(view) {

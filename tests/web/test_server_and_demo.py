@@ -21,8 +21,8 @@ LAT_RANGE, LON_RANGE = (46.7, 47.8), (0.05, 1.4)
 
 def test_serve_binds_to_loopback_by_default():
     defaults = {k: p.default for k, p in inspect.signature(server.serve).parameters.items()}
-    assert defaults == {"host": "127.0.0.1", "port": 8765, "data_dir": "instance",
-                        "demo": False}
+    assert {k: defaults[k] for k in ("host", "port", "data_dir", "demo", "lan")} == {
+        "host": "127.0.0.1", "port": 8765, "data_dir": "instance", "demo": False, "lan": False}
 
 
 def test_serve_demo_fills_an_empty_database_and_never_a_used_one(tmp_path):

@@ -288,17 +288,34 @@ def _highs_mip(model, cost, best_order, best_len, lp_bound, abs_gap, deadline, f
     bound = lp_bound
     mip_solves = 0
     nodes = 0
+    interrupts = 0
     retried_without_presolve = False
+    watch = _SubtourWatch(model)
     while time.perf_counter() < deadline:
         hint = highspy.HighsSolution()
         hint.col_value = model.vector_of(best_order).tolist()
         model.highs.setSolution(hint)
+        watch.cycles = None
         model.run(deadline - time.perf_counter())
         mip_solves += 1
         info = model.highs.getInfo()
         nodes += int(info.mip_node_count)
         status = model.status()
-        extra = {"mip_solves": mip_solves, "nodes": nodes}
+        extra = {"mip_solves": mip_solves, "nodes": nodes, "subtour_interrupts": interrupts}
+        if watch.cycles is not None and status == highspy.HighsModelStatus.kInterrupt:
+            # HiGHS found an integer point with subtours: cut it now rather than let it
+            # prove that point optimal first (the proof would be thrown away).
+            interrupts += 1
+            if np.isfinite(info.mip_dual_bound):
+                bound = max(bound, min(info.mip_dual_bound, best_len))
+            cycles = watch.cycles
+            model.add_subtour_cuts([_smaller(c, n) for c in cycles])
+            patched = local_search(cost, [v for cycle in cycles for v in cycle])
+            patched_len = loop_cost(cost, patched)
+            if patched_len < best_len:
+                best_order, best_len = patched, patched_len
+                fix_more(best_len, best_order)
+            continue
         if status != highspy.HighsModelStatus.kOptimal:
             # A time limit, or an "infeasible" that cannot be right (the incumbent is a
             # feasible point of this model): keep what is proven, claim nothing more.
@@ -335,6 +352,36 @@ def _highs_mip(model, cost, best_order, best_len, lp_bound, abs_gap, deadline, f
             return best_order, best_len, True, best_len, extra
     return best_order, best_len, False, bound, {"mip_solves": mip_solves, "nodes": nodes,
                                                  "integer_phase": "highs-mip"}
+
+
+class _SubtourWatch:
+    """HiGHS callbacks that stop the integer search at its first incumbent with subtours.
+
+    The improving-solution callback records the cycles of each new incumbent; the
+    interrupt callback then asks HiGHS to stop, so the cuts go in at once (the
+    lazy-constraint idea of branch-and-cut, approximated by restarts).
+    """
+
+    def __init__(self, model: _Model):
+        import highspy
+
+        kinds = highspy.cb.HighsCallbackType
+        self.model = model
+        self.cycles: list[list[int]] | None = None
+        self._improving = kinds.kCallbackMipImprovingSolution
+        self._interrupt = kinds.kCallbackMipInterrupt
+        model.highs.setCallback(self._on_event, None)
+        model.highs.startCallback(self._improving)
+        model.highs.startCallback(self._interrupt)
+
+    def _on_event(self, kind, message, data_out, data_in, user_data) -> None:
+        if kind == self._improving:
+            cycles = self.model.cycles(np.asarray(data_out.mip_solution))
+            if len(cycles) > 1:
+                self.cycles = cycles
+        elif kind == self._interrupt:
+            # HiGHS keeps the flag between runs, so it is set both ways every time.
+            data_in.user_interrupt = self.cycles is not None
 
 
 def _closed(length: float, bound: float, abs_gap: float) -> bool:

@@ -27,6 +27,8 @@ test: $(STAMP) chromium
 
 bench: $(STAMP)
 	$(PY) tests/benchmarks/bench_loop.py
+	$(PY) tests/benchmarks/bench_day.py
+	$(PY) tests/benchmarks/bench_week.py
 
 clean:
 	rm -rf $(VENV) .pytest_cache .hypothesis

@@ -24,6 +24,7 @@ from werkzeug.serving import make_server
 
 from solver.errors import InvalidInput
 from tests.test_tiles import LocalTileServer
+from tests.web.browser import CHROMIUM_ARGS
 from webapp.maps import (
     DAY_COLOURS,
     DAY_DASHES,
@@ -46,8 +47,6 @@ from webapp.vendor import (
 
 ARTIFACTS = Path(__file__).resolve().parent.parent / "test-artifacts"
 PHONE = {"width": 390, "height": 844}
-CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                 "--disable-component-update", "--disable-sync", "--no-first-run"]
 HOSTILE = "<img src=x onerror=alert(1)>"
 
 # An invented day: home and four visits a few km apart.

@@ -40,14 +40,9 @@ from cryptography.x509.verification import PolicyBuilder, Store, VerificationErr
 from webapp import lan
 from webapp.access import COOKIE_NAME
 
+from .browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, PHONE  # noqa: E402
 from .live_server import ROOT
 
-CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                 "--disable-component-update", "--disable-sync", "--no-first-run"]
-ARTIFACTS = ROOT / "test-artifacts"
-PHONE = {"viewport": {"width": 390, "height": 844}, "is_mobile": True, "has_touch": True,
-         "device_scale_factor": 2}
 _ADDRESS = re.compile(r"Rondo is at (https://127\.0\.0\.1:(\d+))/")
 HOME_IFACES = [ipaddress.ip_interface("192.168.1.20/24"), ipaddress.ip_interface("127.0.0.1/8"),
                ipaddress.ip_interface("::1/128")]

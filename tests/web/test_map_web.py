@@ -28,16 +28,11 @@ import pytest
 
 from webapp import create_app
 
+from .browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, PHONE  # noqa: E402
 from .helpers import WEDNESDAY, set_home
 from .live_server import ROOT, get_json, running_server
 from .test_exports_web import GEO_URI, HOSTILE, PLACES, _day, _solve
 
-CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                 "--disable-component-update", "--disable-sync", "--no-first-run"]
-ARTIFACTS = ROOT / "test-artifacts"
-PHONE = {"viewport": {"width": 390, "height": 844}, "is_mobile": True, "has_touch": True,
-         "device_scale_factor": 2}
 SOLVE_TIMEOUT_MS = 45_000
 # Demo clients near the demo home, open all Wednesday.
 DEMO_CLIENTS = ["Maison Bourgeon", "Terreaux & Compagnie", "Le Petit Arrosoir",

@@ -30,16 +30,12 @@ expect = playwright_api.expect
 
 from webapp.icon_art import png_bytes  # noqa: E402
 
-from .live_server import ROOT, running_server  # noqa: E402
+from .live_server import running_server  # noqa: E402
 
 pytestmark = pytest.mark.browser
 
-CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                 "--disable-component-update", "--disable-sync", "--no-first-run"]
-ARTIFACTS = ROOT / "test-artifacts"
-PHONE = {"viewport": {"width": 390, "height": 844}, "is_mobile": True, "has_touch": True,
-         "device_scale_factor": 2}
+from .browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, PHONE  # noqa: E402
+
 WEDNESDAY = "2026-03-04"
 THURSDAY = "2026-03-05"
 SOLVE_TIMEOUT_S = 60

@@ -266,7 +266,21 @@ def _base_map(tile_url_template: str | None, attribution: str, asset_base: str, 
         _add_note(fmap, "No street map: stops and route only.")
     else:
         _add_tiles(fmap, tile_url_template, attribution)
+    fmap.add_child(_NoLinkOut())
     return fmap
+
+
+class _NoLinkOut(folium.MacroElement):
+    """Drop Leaflet's own credit link: tapped inside the map frame it would leave the laptop.
+
+    The tile attribution (a required credit) stays; only the library's prefix goes.
+    """
+
+    _template = Template(
+        "{% macro script(this, kwargs) %}"
+        "{{ this._parent.get_name() }}.attributionControl.setPrefix(false);"
+        "{% endmacro %}"
+    )
 
 
 def _add_tiles(fmap, tile_url_template: str, attribution: str) -> None:

@@ -385,29 +385,42 @@ def _set_partition(problem, columns, deadline):
 
 def quote_week_days(problem: WeekProblem, plan: WeekPlan, client: WeekClient, *,
                     from_day: int = 0) -> list[dict]:
-    """The added km of fitting ``client`` into each remaining allowed day, cheapest first.
+    """What fitting ``client`` into each remaining allowed day adds, cheapest first.
 
-    Each figure is the difference of two proven day optima; days where it does
-    not fit are listed last with ``fits`` false.
+    For a new client: the day's proven optimum with it minus the day's plan. For a
+    client already in the week (a move): that, plus what leaving its current day
+    saves (both proven). Days where it does not fit come last with ``fits`` false.
     """
-    km, minutes = _check(WeekProblem(problem.km, problem.minutes,
-                                     (*problem.clients, client), problem.days))
+    n_days = len(problem.days)
     by_name = {c.name: c for c in problem.clients}
+    moving_from = next((d for d, names in enumerate(plan.assignment) if client.name in names),
+                       None)
+    others = problem.clients if client.name in by_name else (*problem.clients, client)
+    km, minutes = _check(WeekProblem(problem.km, problem.minutes, others, problem.days))
+
+    def day_km(d: int, clients: list[WeekClient]) -> float | None:
+        if not clients:
+            return 0.0
+        try:
+            return plan_day(_day_problem(problem, km, minutes, d, clients), time_limit_s=10,
+                            explain=False, tie_break=False).total_km
+        except Infeasible:
+            return None
+
+    saving = 0.0
+    if moving_from is not None:
+        stay = [by_name[n] for n in plan.assignment[moving_from] if n != client.name]
+        left = day_km(moving_from, stay)
+        saving = (plan.days[moving_from].total_km - left) if left is not None else 0.0
     quotes = []
-    for d in range(from_day, len(problem.days)):
-        if d not in client.days_open(len(problem.days)):
+    for d in range(from_day, n_days):
+        if d not in client.days_open(n_days) or d == moving_from:
             continue
         current = [by_name[n] for n in plan.assignment[d]]
         base = plan.days[d].total_km if plan.days[d] is not None else 0.0
-        try:
-            day_plan = plan_day(_day_problem(problem, km, minutes, d, current + [client]),
-                                time_limit_s=10)
-            fits = _day_cap_ok(problem.days[d], len(current) + 1, day_plan.return_min)
-            quotes.append({"day": problem.days[d].name, "day_index": d, "fits": fits,
-                           "extra_km": day_plan.total_km - base,
-                           "return_min": day_plan.return_min,
-                           "proven_optimal": day_plan.proven_optimal})
-        except Infeasible:
-            quotes.append({"day": problem.days[d].name, "day_index": d, "fits": False,
-                           "extra_km": None, "return_min": None, "proven_optimal": True})
+        with_it = day_km(d, current + [client])
+        fits = with_it is not None and _day_cap_ok(problem.days[d], len(current) + 1, 0.0)
+        quotes.append({"day": problem.days[d].name, "day_index": d, "fits": fits,
+                       "extra_km": (with_it - base - saving) if with_it is not None else None,
+                       "proven_optimal": True})
     return sorted(quotes, key=lambda q: (not q["fits"], q["extra_km"] or 0.0))

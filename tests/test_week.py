@@ -172,3 +172,27 @@ def test_bad_week_input_names_the_field(change, fragment):
                       problem.days)
     with pytest.raises(InvalidInput, match=fragment):
         plan_week(bad)
+
+
+def test_quoting_a_client_already_in_the_week_prices_the_move():
+    # The net cost of a move is (day with it) - (day) + (old day without it) - (old day),
+    # each a proven day optimum; checked here by the brute-force day oracle of this file.
+    problem = _random_week(5, 3, 2, cap=None)
+    plan = plan_week(problem)
+    by_name = {c.name: c for c in problem.clients}
+    mover_day, mover = next((d, by_name[n]) for d, names in enumerate(plan.assignment)
+                            for n in names if len(by_name[n].days_open(3)) >= 2)
+    quotes = quote_week_days(problem, plan, mover)
+    assert any(q["fits"] for q in quotes)
+    for quote in quotes:
+        d = quote["day_index"]
+        assert d != mover_day and d in mover.days_open(3)
+        if not quote["fits"]:
+            continue
+        here = [by_name[n] for n in plan.assignment[d]]
+        there = [by_name[n] for n in plan.assignment[mover_day] if n != mover.name]
+        before = (_day_best(problem, d, here) if here else 0.0) + _day_best(
+            problem, mover_day, [by_name[n] for n in plan.assignment[mover_day]])
+        after = _day_best(problem, d, here + [mover]) + (
+            _day_best(problem, mover_day, there) if there else 0.0)
+        assert quote["extra_km"] == pytest.approx(after - before, abs=1e-6)

@@ -22,7 +22,7 @@ from .fields import parse_date
 from .maps import day_map_html
 from .tiles import tile_map_settings
 
-__all__ = ["map_bp", "map_policy", "CAUTION"]
+__all__ = ["map_bp", "map_policy", "map_response", "strict_headers", "CAUTION"]
 
 map_bp = Blueprint("map_page", __name__)
 
@@ -71,18 +71,25 @@ def day_map(date_text: str):
     tile_url, attribution = tile_map_settings(current_app.config)
     page = _with_caution(day_map_html(stops, tile_url_template=tile_url,
                                       attribution=attribution))
+    return map_response(page)
+
+
+def map_response(page: str):
+    """A rendered map page with its own script-hash CSP; never cached (plans change)."""
     response = make_response(page)
     response.headers["Content-Type"] = "text/html; charset=utf-8"
     response.headers["Content-Security-Policy"] = map_policy(page)
-    response.headers["Cache-Control"] = "no-cache"  # re-planned days must not show old loops
+    response.headers["Cache-Control"] = "no-cache"  # a re-planned day must not show an old loop
     return response
 
 
-@map_bp.after_request
-def _headers(response):
-    # Error pages of this blueprint get the app's strict rules (they carry no inline script).
+def strict_headers(response):
+    """Error pages of the map routes carry no inline script: the app's strict rules."""
     response.headers.setdefault("Content-Security-Policy", "default-src 'self'; "
                                 "object-src 'none'; base-uri 'none'; frame-ancestors 'self'")
     response.headers.setdefault("X-Content-Type-Options", "nosniff")
     response.headers.setdefault("Referrer-Policy", "no-referrer")
     return response
+
+
+map_bp.after_request(strict_headers)

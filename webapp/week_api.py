@@ -10,14 +10,14 @@ from __future__ import annotations
 import datetime as dt
 import time
 
-from flask import Blueprint, current_app, jsonify, make_response, request, url_for
+from flask import Blueprint, current_app, jsonify, request, url_for
 
 from . import clients, plan_exports, planning, plans, weeks
 from .db import get_db, transaction
 from .errors import FieldErrors, NotFound
 from .fields import json_object
 from .jobs import Job, registry
-from .map_page import CAUTION, map_policy
+from .map_page import CAUTION, map_response, strict_headers
 from .maps import DAY_COLOURS, DAY_DASHES, week_map_html
 from .tiles import tile_map_settings
 
@@ -252,18 +252,7 @@ def week_map(monday_text: str):
     head, _, tail = page.rpartition("</body>")
     page = (head.replace("</head>", _MAP_LAYOUT + "</head>", 1) + note + "</body>" + tail
             if head else page + _MAP_LAYOUT + note)
-    response = make_response(page)
-    response.headers["Content-Type"] = "text/html; charset=utf-8"
-    response.headers["Content-Security-Policy"] = map_policy(page)
-    response.headers["Cache-Control"] = "no-cache"  # a moved visit must not show the old loop
-    return response
+    return map_response(page)
 
 
-@map_bp.after_request
-def _headers(response):
-    # Error pages here carry no inline script: the app's strict rules.
-    response.headers.setdefault("Content-Security-Policy", "default-src 'self'; "
-                                "object-src 'none'; base-uri 'none'; frame-ancestors 'self'")
-    response.headers.setdefault("X-Content-Type-Options", "nosniff")
-    response.headers.setdefault("Referrer-Policy", "no-referrer")
-    return response
+map_bp.after_request(strict_headers)

@@ -142,6 +142,44 @@ const Rondo = (() => {
     return { done, stop };
   }
 
+  /* Follow a job in the page's #progress box with its "stop waiting" button. Resolves to the
+     job once it is done, or null when it failed (toast says why), was stopped or superseded;
+     ``state.running`` holds the job being followed. */
+  function watchJob(job, { state, title, failText }) {
+    const $ = (id) => document.getElementById(id);
+    const box = $("progress");
+    box.hidden = false;
+    $("progress-title").textContent = title;
+    const handle = follow(job, (j) => {
+      const pct = Math.round(j.progress * 100);
+      $("progress-fill").style.width = `${pct}%`;
+      $("progress-meter").setAttribute("aria-valuenow", String(pct));
+      $("progress-text").textContent = `${j.elapsed_s.toFixed(0)} s of at most ${j.time_limit_s.toFixed(0)} s`;
+    });
+    state.running = handle;
+    $("progress-cancel").onclick = async () => {
+      await handle.stop();
+      state.running = null;
+      box.hidden = true;
+      toast("Stopped waiting. Nothing was changed.");
+    };
+    return handle.done.then((j) => {
+      if (state.running !== handle) return null;
+      state.running = null;
+      box.hidden = true;
+      if (j.state === "failed") {
+        toast((j.error && j.error.message) || failText, true);
+        return null;
+      }
+      return j.state === "done" ? j : null;
+    }).catch((err) => {
+      state.running = null;
+      box.hidden = true;
+      toast(err.message, true);
+      return null;
+    });
+  }
+
   /* Ask the laptop how it reads a typed position and show that under the input. */
   function echoLocation(input, out) {
     let timer = null;
@@ -197,5 +235,5 @@ const Rondo = (() => {
   }
 
   return { ApiError, api, send, el, svg, toast, clearErrors, showErrors, todayISO, nowHHMM, clock, km,
-    minutes, signed, follow, echoLocation, latLonWords, formValues, numberOrRaw };
+    minutes, signed, follow, watchJob, echoLocation, latLonWords, formValues, numberOrRaw };
 })();

@@ -2,7 +2,7 @@
 "use strict";
 
 (() => {
-  const { api, el, toast, showErrors, clearErrors, follow, echoLocation, todayISO, nowHHMM,
+  const { api, el, toast, showErrors, clearErrors, watchJob, echoLocation, todayISO, nowHHMM,
     km, minutes, signed } = Rondo;
   const $ = (id) => document.getElementById(id);
   const dateInput = $("day-date");
@@ -295,39 +295,13 @@
   /* ---- jobs ---- */
 
   function watch(job) {
-    const box = $("progress");
-    box.hidden = false;
-    $("progress-title").textContent = job.kind === "quote" ? "Pricing the extra visit\u2026"
-      : "Working out the order\u2026";
-    const handle = follow(job, (j) => {
-      const pct = Math.round(j.progress * 100);
-      $("progress-fill").style.width = `${pct}%`;
-      $("progress-meter").setAttribute("aria-valuenow", String(pct));
-      $("progress-text").textContent = `${j.elapsed_s.toFixed(0)} s of at most ${j.time_limit_s.toFixed(0)} s`;
-    });
-    state.running = handle;
-    $("progress-cancel").onclick = async () => {
-      await handle.stop();
-      state.running = null;
-      box.hidden = true;
-      toast("Stopped waiting. Nothing was changed.");
-    };
-    return handle.done.then((j) => {
-      if (state.running !== handle) return null;
-      state.running = null;
-      box.hidden = true;
-      if (j.state === "failed") {
-        toast((j.error && j.error.message) || "The solve failed.", true);
-        return null;
+    const title = job.kind === "quote" ? "Pricing the extra visit\u2026" : "Working out the order\u2026";
+    return watchJob(job, { state, title, failText: "The solve failed." }).then((j) => {
+      if (j) {
+        if (j.kind === "quote") showQuote(j.result);
+        else render(j.result);
       }
-      if (j.state !== "done") return null;
-      if (j.kind === "quote") showQuote(j.result);
-      else render(j.result);
       return j;
-    }).catch((err) => {
-      state.running = null;
-      box.hidden = true;
-      toast(err.message, true);
     });
   }
 

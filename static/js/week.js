@@ -3,7 +3,7 @@
 "use strict";
 
 (() => {
-  const { api, el, svg, toast, showErrors, clearErrors, follow, km, minutes, signed } = Rondo;
+  const { api, el, svg, toast, showErrors, clearErrors, follow, watchJob, km, minutes, signed } = Rondo;
   const $ = (id) => document.getElementById(id);
   const WEEKDAYS = ["mon", "tue", "wed", "thu", "fri", "sat", "sun"];
   const MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"];
@@ -339,38 +339,10 @@
   /* ---- jobs ---- */
 
   function watch(job, title) {
-    const box = $("progress");
-    box.hidden = false;
-    $("progress-title").textContent = title || "Spreading the visits over the week\u2026";
-    const handle = follow(job, (j) => {
-      const pct = Math.round(j.progress * 100);
-      $("progress-fill").style.width = `${pct}%`;
-      $("progress-meter").setAttribute("aria-valuenow", String(pct));
-      $("progress-text").textContent = `${j.elapsed_s.toFixed(0)} s of at most ${j.time_limit_s.toFixed(0)} s`;
-    });
-    state.running = handle;
-    $("progress-cancel").onclick = async () => {
-      await handle.stop();
-      state.running = null;
-      box.hidden = true;
-      toast("Stopped waiting. Nothing was changed.");
-    };
-    return handle.done.then((j) => {
-      if (state.running !== handle) return null;
-      state.running = null;
-      box.hidden = true;
-      if (j.state === "failed") {
-        toast((j.error && j.error.message) || "The laptop could not work it out.", true);
-        return null;
-      }
-      if (j.state !== "done") return null;
-      if (j.kind !== "week-quote") render(j.result);
+    return watchJob(job, { state, title: title || "Spreading the visits over the week\u2026",
+      failText: "The laptop could not work it out." }).then((j) => {
+      if (j && j.kind !== "week-quote") render(j.result);
       return j;
-    }).catch((err) => {
-      state.running = null;
-      box.hidden = true;
-      toast(err.message, true);
-      return null;
     });
   }
 

@@ -40,7 +40,13 @@ from cryptography.x509.verification import PolicyBuilder, Store, VerificationErr
 from webapp import lan
 from webapp.access import COOKIE_NAME
 
-from .browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, PHONE  # noqa: E402
+from .browser import (  # noqa: E402
+    ARTIFACTS,
+    CHROMIUM,
+    CHROMIUM_ARGS,
+    PHONE,
+    keep_on_loopback,
+)
 from .live_server import ROOT
 
 _ADDRESS = re.compile(r"Rondo is at (https://127\.0\.0\.1:(\d+))/")
@@ -413,18 +419,8 @@ def browser(server):
 def _device(browser):
     """A phone-sized context; yields (page, outside, responses)."""
     context = browser.new_context(**PHONE)
-    outside: list[str] = []
     responses: list = []
-
-    def gate(route):
-        url = route.request.url
-        if urllib.parse.urlsplit(url).hostname == "127.0.0.1":
-            route.continue_()
-        else:
-            outside.append(url)
-            route.abort()
-
-    context.route("**/*", gate)
+    outside = keep_on_loopback(context)
     page = context.new_page()
     page.on("response", lambda response: responses.append(response))
     try:

@@ -28,7 +28,13 @@ import pytest
 
 from webapp import create_app
 
-from .browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, PHONE  # noqa: E402
+from .browser import (  # noqa: E402
+    ARTIFACTS,
+    CHROMIUM,
+    CHROMIUM_ARGS,
+    PHONE,
+    keep_on_loopback,
+)
 from .helpers import WEDNESDAY, set_home
 from .live_server import ROOT, get_json, running_server
 from .test_exports_web import GEO_URI, HOSTILE, PLACES, _day, _solve
@@ -256,18 +262,9 @@ def test_the_phone_page_maps_the_solved_loop_and_hands_out_files(tmp_path_factor
 
         browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
         context = browser.new_context(**PHONE, accept_downloads=True)
-        outside: list[str] = []
         dialogs: list[str] = []
         errors: list[str] = []
-
-        def gate(route):
-            if urllib.parse.urlsplit(route.request.url).hostname == "127.0.0.1":
-                route.continue_()
-            else:
-                outside.append(route.request.url)
-                route.abort()
-
-        context.route("**/*", gate)
+        outside = keep_on_loopback(context)
         page = context.new_page()
         page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
         page.on("pageerror", lambda e: errors.append(str(e)))

@@ -34,7 +34,13 @@ from .live_server import running_server  # noqa: E402
 
 pytestmark = pytest.mark.browser
 
-from .browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, PHONE  # noqa: E402
+from .browser import (  # noqa: E402
+    ARTIFACTS,
+    CHROMIUM,
+    CHROMIUM_ARGS,
+    PHONE,
+    keep_on_loopback,
+)
 
 WEDNESDAY = "2026-03-04"
 THURSDAY = "2026-03-05"
@@ -114,18 +120,9 @@ def browser(tmp_path_factory):
 
 def _watch(context):
     """Route and record every request of ``context``; return the check to run at the end."""
-    outside: list[str] = []
     errors: list[str] = []
     requests: list[str] = []
-
-    def gate(route):
-        if urllib.parse.urlsplit(route.request.url).hostname == "127.0.0.1":
-            route.continue_()
-        else:
-            outside.append(route.request.url)
-            route.abort()
-
-    context.route("**/*", gate)
+    outside = keep_on_loopback(context)
     context.on("request", lambda r: requests.append(r.url))
     page = context.pages[0] if context.pages else context.new_page()
     page.on("pageerror", lambda e: errors.append(str(e)))

@@ -23,7 +23,13 @@ from .live_server import get_json, running_server  # noqa: E402
 
 pytestmark = pytest.mark.browser
 
-from .browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, PHONE  # noqa: E402
+from .browser import (  # noqa: E402
+    ARTIFACTS,
+    CHROMIUM,
+    CHROMIUM_ARGS,
+    PHONE,
+    keep_on_loopback,
+)
 
 WEDNESDAY = "2026-03-04"
 THURSDAY = "2026-03-05"
@@ -56,19 +62,9 @@ def phone(browser):
     """A phone-sized page; ``phone.outside`` lists any request that tried to leave loopback."""
     context = browser.new_context(**PHONE, permissions=["geolocation"],
                                   geolocation={"latitude": 47.3800, "longitude": 0.7000})
-    outside: list[str] = []
     dialogs: list[str] = []
     errors: list[str] = []
-
-    def gate(route):
-        host = urllib.parse.urlsplit(route.request.url).hostname
-        if host == "127.0.0.1":
-            route.continue_()
-        else:
-            outside.append(route.request.url)
-            route.abort()
-
-    context.route("**/*", gate)
+    outside = keep_on_loopback(context)
     page = context.new_page()
     page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
     page.on("pageerror", lambda e: errors.append(str(e)))

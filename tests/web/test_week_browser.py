@@ -23,7 +23,13 @@ from .live_server import running_server  # noqa: E402
 
 pytestmark = pytest.mark.browser
 
-from .browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, PHONE  # noqa: E402
+from .browser import (  # noqa: E402
+    ARTIFACTS,
+    CHROMIUM,
+    CHROMIUM_ARGS,
+    PHONE,
+    keep_on_loopback,
+)
 
 NARROW = {**PHONE, "viewport": {"width": 360, "height": 780}}
 MONDAY = "2026-03-02"
@@ -49,19 +55,9 @@ def browser():
 
 def _page(browser, profile):
     context = browser.new_context(**profile)
-    outside: list[str] = []
     errors: list[str] = []
     seen: list[str] = []
-
-    def gate(route):
-        host = urllib.parse.urlsplit(route.request.url).hostname
-        if host == "127.0.0.1":
-            route.continue_()
-        else:
-            outside.append(route.request.url)
-            route.abort()
-
-    context.route("**/*", gate)
+    outside = keep_on_loopback(context)
     page = context.new_page()
     page.on("request", lambda r: seen.append(r.url))
     page.on("pageerror", lambda e: errors.append(str(e)))

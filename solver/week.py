@@ -1,23 +1,27 @@
 """The week: which client on which working day, each day's loop exact, and a bound on the whole.
 
-Two methods, chosen by size:
+The week is a set-partitioning problem (Balinski & Quandt 1964): choose one
+route per working day so that every client gets its visits, respecting allowed
+days, caps and gaps between repeated visits. Two methods:
 
-- **exact** (small weeks): one run of the exact day programme per working day
-  lists the best route of *every* set of clients that fits that day
-  (:func:`solver.day_exact.best_subset_routes`); a set-partitioning integer
-  programme then picks one set per day so that every client gets its visits,
-  respecting allowed days, caps and gaps between repeated visits (Balinski &
-  Quandt 1964, the set-partitioning view of vehicle routing). HiGHS proves it.
-- **improve** (larger weeks, :mod:`solver.week_improve`): cheapest feasible
-  insertion, then moves and swaps between days confirmed by exact re-solves,
-  until no move helps (a local optimum; each day's loop is proven for its clients).
+- **the column path** (every size, :func:`_column_week`): a good week first
+  (:mod:`solver.week_improve`: insertion, moves and swaps confirmed by exact day
+  re-solves); then column generation on the set-partitioning LP
+  (:mod:`solver.week_bound`) gives the lower bound and many more real routes;
+  a dive through the LP and one set-partitioning pass over every route known
+  improve the week. When every route whose reduced cost could beat the week can
+  be listed in time (route enumeration, Baldacci, Christofides & Mingozzi
+  2008), set partitioning over them proves the week optimal.
+- **exact** (small weeks, the independent check): one run of the exact day
+  programme per working day lists the best route of *every* set of clients that
+  fits that day (:func:`solver.day_exact.best_subset_routes`), and HiGHS solves
+  the set partitioning over all of them.
 
-The lower bound of an improved week: the week uses at least k days (from the
-caps and repeated visits), and under shortest-path distances (never longer than
-the legs driven, and metric even when entered drives are not) k loops from home
-through every client cost no more than the week, since merging loops at home
-and skipping repeated visits never lengthens them; the best k loops are proven
-by the loop solver on k copies of home (Bellmore & Hong 1974's transformation).
+When column generation gives no bound in time, the fallback bound: the week
+uses at least k days (caps, repeated visits), and under shortest-path distances
+(never longer than the legs driven, metric even when entered drives are not) k
+loops from home through every client cost no more than the week; the best k
+loops are proven by the loop solver on k copies of home (Bellmore & Hong 1974).
 """
 
 from __future__ import annotations
@@ -36,6 +40,7 @@ from .errors import Infeasible, InvalidInput, SolverError
 from .loop import solve_loop
 from .milp_backend import new_highs
 from .result import relative_gap
+from .week_bound import WeekColumns
 from .week_improve import improve_week
 
 __all__ = [
@@ -196,10 +201,13 @@ def plan_week(problem: WeekProblem, *, time_limit_s: float = 60.0,
               method: str = "auto") -> WeekPlan:
     """Assign every due visit to a working day and plan each day exactly.
 
-    ``method`` "exact" proves the week optimal (small weeks); "improve" gives a
-    local optimum with each day proven and a valid lower bound on the week; "auto"
-    picks exact up to :data:`EXACT_WEEK_MAX_VISITS` visits and falls back to
-    improve when the exact listing runs out of time.
+    ``method`` "improve" runs the column path: a local optimum with each day
+    proven, improved by diving and recombining the routes column generation
+    prices, with the set-partitioning bound; the week is proven when listing
+    every route that could beat it succeeds in time. "exact" is the independent
+    small-week method (every feasible set of clients per day, then set
+    partitioning; :data:`EXACT_WEEK_MAX_VISITS` visits or so). "auto" runs the
+    column path and, for small weeks it did not prove, the exact method.
     """
     started = time.perf_counter()
     if method not in ("auto", "exact", "improve"):
@@ -207,37 +215,138 @@ def plan_week(problem: WeekProblem, *, time_limit_s: float = 60.0,
                            field="method", value=method)
     km, minutes = _check(problem)
     deadline = started + time_limit_s
-    total_visits = sum(c.visits for c in problem.clients)
-    if method == "exact" or (method == "auto" and total_visits <= EXACT_WEEK_MAX_VISITS):
-        try:
-            assignment, stats = _exact_assignment(problem, km, minutes, deadline)
-            return _finish(problem, km, minutes, assignment, started, proven=True,
-                           method="exact", stats=stats)
-        except SolverError as stopped:
-            if method == "exact" or isinstance(stopped, Infeasible):
-                raise
-    assignment, stats, pool = improve_week(problem, km, minutes, deadline,
-                                           day_problem=_day_problem, cap_ok=_day_cap_ok)
-    # Recombine every day set proven along the way: a set-partitioning pass over that pool
-    # can only keep or lower the week's km (the current week is one of its solutions).
+    small = sum(c.visits for c in problem.clients) <= EXACT_WEEK_MAX_VISITS
+    if method == "exact":
+        return _listed_week(problem, km, minutes, started, deadline)
     try:
-        pooled, _ = _set_partition(problem, pool, time.perf_counter() + max(
-            1.0, min(10.0, deadline - time.perf_counter())))
-        pooled_km = sum(cost for d, names, cost in pool
-                        if names == frozenset(c.name for c in pooled[d]))
-        current_km = sum(cost for d, names, cost in pool
-                         if names == frozenset(c.name for c in assignment[d]))
-        if pooled_km < current_km - 1e-6:
-            assignment = pooled
-            stats["recombined"] = True
-    except SolverError:
-        pass
-    stats["pool_columns"] = len(pool)
-    return _finish(problem, km, minutes, assignment, started, proven=False, method="improve",
+        plan = _column_week(problem, km, minutes, started, deadline)
+    except Infeasible:
+        if method == "auto" and small:
+            return _listed_week(problem, km, minutes, started, deadline)  # its verdict proves
+        raise
+    if method == "auto" and small and not plan.proven_optimal and (
+            time.perf_counter() < deadline):
+        try:
+            return _listed_week(problem, km, minutes, started, deadline)
+        except SolverError:
+            return plan
+    return plan
+
+
+def _listed_week(problem, km, minutes, started, deadline) -> WeekPlan:
+    assignment, stats = _exact_assignment(problem, km, minutes, deadline)
+    return _finish(problem, km, minutes, assignment, started, proven=True, method="exact",
                    stats=stats)
 
 
-def _finish(problem, km, minutes, assignment, started, *, proven, method, stats) -> WeekPlan:
+def _column_week(problem, km, minutes, started, deadline) -> WeekPlan:
+    """The column path (see :func:`plan_week`)."""
+    now = time.perf_counter()
+    budget = max(0.0, deadline - now)
+    try:
+        assignment, stats, pool = improve_week(problem, km, minutes, now + 0.3 * budget,
+                                               day_problem=_day_problem, cap_ok=_day_cap_ok)
+        current_km = _pool_km(pool, assignment)
+    except Infeasible as unplaced:
+        # Greedy placement can fail where a week exists: the columns may still find one.
+        assignment, stats, pool, current_km, failed = None, {}, [], float("inf"), unplaced
+    stats["pool_columns"] = len(pool)
+    columns = WeekColumns(problem, km, minutes, pool, day_problem=_day_problem)
+    found = columns.bound(now + 0.7 * budget,
+                          upper=None if assignment is None else current_km)
+    if assignment is None or found.bound is None or (
+            found.bound < current_km - _proof_slack(current_km)):
+        # The columns priced are real day plans: a dive through the LP, then one
+        # set-partitioning pass over every plan known (the improving method's included,
+        # so the week can only keep or lower its km).
+        dived = columns.dive(now + 0.75 * budget)
+        known = {(d, names): cost for d, names, cost in pool}
+        for key, cost in columns.real.items():
+            known[key] = min(cost, known.get(key, cost))
+        if dived is not None:
+            dived_km = sum(known[key] for key in dived)
+            stats["dive_km"] = round(dived_km, 3)
+            if dived_km < current_km - 1e-6:
+                assignment, current_km = _assignment_of(problem, dived), dived_km
+        best = None if assignment is None else [
+            (d, frozenset(c.name for c in cl)) for d, cl in enumerate(assignment)]
+        try:
+            pooled, partition = _set_partition(
+                problem, [(d, names, cost) for (d, names), cost in known.items()],
+                max(now + 0.82 * budget, time.perf_counter() + 1.0), start=best)
+            pooled_km = sum(known.get((d, frozenset(c.name for c in cl)), 0.0)
+                            for d, cl in enumerate(pooled))
+            stats["partition_proven"] = partition["proven"]
+            if pooled_km < current_km - 1e-6:
+                assignment = pooled
+                stats["recombined"] = True
+        except SolverError:
+            pass  # over the columns known only: never a proof that no week exists
+        if assignment is None:
+            raise failed
+        current_km = min(current_km, _known_km(known, assignment))
+        proven = _prove_by_enumeration(problem, columns, known, assignment, current_km,
+                                       max(now + 0.92 * budget, time.perf_counter()), stats)
+        if proven is not None:
+            stats.update(found.stats())
+            return _finish(problem, km, minutes, proven, started, proven=True,
+                           method="enumeration", stats=stats)
+    stats.update(found.stats())
+    return _finish(problem, km, minutes, assignment, started, proven=False, method="improve",
+                   stats=stats, column_bound=found.bound,
+                   bound_time_s=max(1.0, deadline - time.perf_counter()))
+
+
+def _known_km(known, assignment) -> float:
+    return sum(known.get((d, frozenset(c.name for c in cl)), 0.0 if not cl else float("inf"))
+               for d, cl in enumerate(assignment))
+
+
+def _prove_by_enumeration(problem, columns, known, assignment, current_km, deadline, stats):
+    """The proven optimal week when every route that could beat ``current_km`` can be
+    listed in time (:meth:`solver.week_bound.WeekColumns.columns_within`), else None."""
+    if time.perf_counter() >= deadline:
+        return None
+    listed = columns.columns_within(current_km, deadline)
+    if listed is None:
+        stats["enumerated"] = None
+        return None
+    stats["enumerated"] = len(listed)
+    everything = dict(known)
+    for d, names, cost in listed:
+        everything[(d, names)] = min(cost, everything.get((d, names), cost))
+    start = [(d, frozenset(c.name for c in cl)) for d, cl in enumerate(assignment)]
+    try:
+        chosen, partition = _set_partition(
+            problem, [(d, names, cost) for (d, names), cost in everything.items()],
+            max(deadline, time.perf_counter() + 1.0), start=start)
+    except SolverError:
+        return None
+    return chosen if partition["proven"] else None
+
+
+def _assignment_of(problem, routes) -> list[list[WeekClient]]:
+    """Per day, the clients of the (day, client names) pairs chosen."""
+    by_name = {c.name: c for c in problem.clients}
+    assignment: list[list[WeekClient]] = [[] for _ in problem.days]
+    for d, names in routes:
+        assignment[d] = [by_name[n] for n in sorted(names)]
+    return assignment
+
+
+def _pool_km(pool, assignment) -> float:
+    """The km of ``assignment`` as proven in ``pool`` (every day of it is there)."""
+    wanted = {(d, frozenset(c.name for c in clients)) for d, clients in enumerate(assignment)}
+    return sum(cost for d, names, cost in pool if (d, names) in wanted)
+
+
+def _proof_slack(total_km: float) -> float:
+    """How close a bound must come to a week's km to prove it: float noise only."""
+    return 1e-6 * max(1.0, abs(total_km))
+
+
+def _finish(problem, km, minutes, assignment, started, *, proven, method, stats,
+            column_bound: float | None = None, bound_time_s: float = 20.0) -> WeekPlan:
     plans: list[DayPlan | None] = []
     for d, clients in enumerate(assignment):
         if not clients:
@@ -248,8 +357,13 @@ def _finish(problem, km, minutes, assignment, started, *, proven, method, stats)
     total_min = sum(p.total_drive_min for p in plans if p is not None)
     if proven:
         bound, note = total_km, "proven optimal week"
+    elif column_bound is not None:
+        bound, note = column_bound, ("the week's set-partitioning relaxation over every day "
+                                     "route (column generation), the break ignored")
     else:
-        bound, note = _week_lower_bound(problem, km)
+        bound, note = _week_lower_bound(problem, km, time_limit_s=min(20.0, bound_time_s))
+    if not proven and bound >= total_km - _proof_slack(total_km):
+        proven, note = True, "proven optimal week: its km meet the lower bound"
     return WeekPlan(
         days=tuple(plans),
         day_names=tuple(d.name for d in problem.days),
@@ -259,14 +373,15 @@ def _finish(problem, km, minutes, assignment, started, *, proven, method, stats)
         proven_optimal=proven,
         lower_bound=min(bound, total_km),
         bound_note=note,
-        gap=0.0 if proven else relative_gap(total_km, min(bound, total_km)),
+        gap=relative_gap(total_km, min(bound, total_km)),
         seconds=time.perf_counter() - started,
         method=method,
         stats=stats,
     )
 
 
-def _week_lower_bound(problem: WeekProblem, km: np.ndarray) -> tuple[float, str]:
+def _week_lower_bound(problem: WeekProblem, km: np.ndarray, *,
+                      time_limit_s: float = 20.0) -> tuple[float, str]:
     """A valid bound on the week's km (see the module docstring)."""
     rows = [0] + [c.node for c in problem.clients]
     # Every leg costs at least the shortest path between its ends, and shortest paths obey
@@ -285,7 +400,7 @@ def _week_lower_bound(problem: WeekProblem, km: np.ndarray) -> tuple[float, str]
     merged[:loops, loops:] = sub[0, 1:]
     merged[loops:, :loops] = sub[1:, 0][:, None]
     np.fill_diagonal(merged, 0.0)
-    loop = solve_loop(merged, time_limit_s=20)
+    loop = solve_loop(merged, time_limit_s=time_limit_s)
     bound = loop.lower_bound
     note = (f"{loops} shortest loop{'s' if loops > 1 else ''} from home through every client, "
             "windows and day length ignored")
@@ -324,11 +439,21 @@ def _exact_assignment(problem, km, minutes, deadline):
             if _day_cap_ok(day, len(members), back):
                 names = frozenset(open_here[k - 1].name for k in members)
                 columns.append((d, names, float(km_total)))
-    return _set_partition(problem, columns, deadline)
+    assignment, stats = _set_partition(problem, columns, deadline)
+    if not stats["proven"]:
+        raise SolverError("the week's set-partitioning model was not proven in time")
+    return assignment, stats
 
 
-def _set_partition(problem, columns, deadline):
-    """The cheapest choice of one column (day, clients, km) per day covering every visit."""
+def _set_partition(problem, columns, deadline, start=None):
+    """The cheapest choice of one column (day, clients, km) per day covering every visit.
+
+    ``start`` (day, client names) pairs of a known week are given to HiGHS as its
+    first incumbent. Returns the assignment and stats whose ``proven`` says whether
+    HiGHS proved it
+    (the time limit may stop it with a good choice that is not proven);
+    SolverError when it found none in time.
+    """
     n_days = len(problem.days)
     columns = columns + [(d, frozenset(), 0.0) for d in range(n_days)]
     clients = list(problem.clients)
@@ -366,21 +491,28 @@ def _set_partition(problem, columns, deadline):
                                 np.full(n_cols, highspy.HighsVarType.kInteger))
     highs.setOptionValue("mip_rel_gap", 0.0)
     highs.setOptionValue("mip_abs_gap", 1e-9)
+    if start is not None:
+        chosen = set(start)
+        values = np.zeros(n_cols)
+        for k, (d, names, _) in enumerate(columns):
+            if (d, names) in chosen:
+                values[k] = 1.0
+                chosen.discard((d, names))
+        known = highspy.HighsSolution()
+        known.col_value = values.tolist()
+        highs.setSolution(known)
     highs.run()
     status = highs.getModelStatus()
     if status == highspy.HighsModelStatus.kInfeasible:
         raise Infeasible("no assignment of the week's visits to its days keeps every rule",
                          explanation={"summary": "no assignment of the week's visits to its days "
                                       "keeps every window, cap and gap"})
-    if status != highspy.HighsModelStatus.kOptimal:
-        raise SolverError("the week's set-partitioning model was not proven in time")
+    proven = status == highspy.HighsModelStatus.kOptimal
+    if not proven and highs.getInfo().primal_solution_status != 2:  # 2: a feasible solution
+        raise SolverError("the week's set-partitioning model found no choice in time")
     x = np.asarray(highs.getSolution().col_value)
-    by_name = {c.name: c for c in clients}
-    assignment: list[list[WeekClient]] = [[] for _ in range(n_days)]
-    for k in np.flatnonzero(x > 0.5):
-        d, names, _ = columns[int(k)]
-        assignment[d] = [by_name[n] for n in sorted(names)]
-    return assignment, {"columns": n_cols}
+    chosen = [columns[int(k)][:2] for k in np.flatnonzero(x > 0.5)]
+    return _assignment_of(problem, chosen), {"columns": n_cols, "proven": proven}
 
 
 def quote_week_days(problem: WeekProblem, plan: WeekPlan, client: WeekClient, *,

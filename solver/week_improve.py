@@ -210,6 +210,8 @@ def _construct(week: _Week, order) -> None:
             found = week.best_insertion(d, client)
             if found is not None and (best is None or found[0] < best[0]):
                 best = (found[0], d, found[1])
+        if best is None:
+            best = _exact_insertion(week, client)
         if best is None and not _make_room(week, client):
             raise Infeasible(
                 f"{client.name} fits on none of its days next to the visits already placed",
@@ -217,6 +219,21 @@ def _construct(week: _Week, order) -> None:
                              "(windows, caps or the gap between visits)", "client": client.name})
         if best is not None:
             week.place(best[1], best[2], client)
+
+
+def _exact_insertion(week: _Week, client):
+    """(added km, day, proven order) of the cheapest day where ``client`` fits once the
+    whole day is re-ordered (inserting into the current order can miss it), or None."""
+    best = None
+    for d in week.open_days(client):
+        if not week.gap_ok(client, d):
+            continue
+        before = week.exact_cost(d, week.orders[d])
+        after = week.exact_cost(d, week.orders[d] + [client])
+        if before is not None and after is not None and (
+                best is None or after[0] - before[0] < best[0]):
+            best = (after[0] - before[0], d, after[1])
+    return best
 
 
 def _make_room(week: _Week, client) -> bool:

@@ -24,7 +24,7 @@ from .coordinates import geo_uri
 from .errors import InvalidInput
 from .export_stops import ExportDay, ExportStop
 
-__all__ = ["CSV_COLUMNS", "plan_csv", "plan_csv_text"]
+__all__ = ["CSV_COLUMNS", "plan_csv", "plan_csv_text", "guard_cell", "unguard_cell"]
 
 CSV_COLUMNS = ("order", "client", "arrive", "start", "depart", "wait_min", "leg_km", "leg_min",
                "lat", "lon", "geo_uri")
@@ -54,7 +54,7 @@ def _row(stop: ExportStop) -> list[str]:
     first = stop.kind == "start"
     return [
         str(stop.order),
-        _safe_cell(stop.name),
+        guard_cell(stop.name),
         _clock(stop.arrive_min),
         _clock(stop.start_min),
         _clock(stop.depart_min),
@@ -71,5 +71,11 @@ def _clock(minutes: float | None) -> str:
     return "" if minutes is None else format_clock(minutes)
 
 
-def _safe_cell(text: str) -> str:
+def guard_cell(text: str) -> str:
+    """``text`` with a leading apostrophe when a spreadsheet would run it as a formula."""
     return "'" + text if text.startswith(_FORMULA_START) else text
+
+
+def unguard_cell(text: str) -> str:
+    """The inverse of :func:`guard_cell`, for reading back a file this project wrote."""
+    return text[1:] if text.startswith("'") and text[1:].startswith(_FORMULA_START) else text

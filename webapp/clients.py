@@ -6,6 +6,7 @@ import csv
 import io
 
 from solver.clock import Window, format_windows, parse_windows
+from solver.plan_csv import guard_cell, unguard_cell
 
 from . import versions
 from .db import transaction
@@ -234,9 +235,11 @@ def export_csv(conn) -> str:
     writer.writerow(CSV_COLUMNS)
     for c in list_clients(conn):
         loc = c["location"]
-        writer.writerow([c["name"], f"{loc['lat']:.6f}", f"{loc['lon']:.6f}", c["visit_min"],
-                         *(c["windows"][d] for d in WEEKDAYS), c["notes"],
-                         "yes" if c["active"] else "no"])
+        # Names and notes a spreadsheet would run as formulas get a leading apostrophe
+        # (OWASP "CSV Injection"); importing the file takes it off again.
+        writer.writerow([guard_cell(c["name"]), f"{loc['lat']:.6f}", f"{loc['lon']:.6f}",
+                         c["visit_min"], *(c["windows"][d] for d in WEEKDAYS),
+                         guard_cell(c["notes"]), "yes" if c["active"] else "no"])
     return out.getvalue()
 
 
@@ -327,7 +330,8 @@ def _check_header(header: list[str]) -> None:
 def _row_body(cells: dict) -> tuple[dict, list]:
     """A CSV row as the same body the JSON API takes, plus cell-level problems."""
     bad = []
-    body: dict = {"name": cells.get("name", ""), "notes": cells.get("notes", "")}
+    body: dict = {"name": unguard_cell(cells.get("name", "")),
+                  "notes": unguard_cell(cells.get("notes", ""))}
     if cells.get("location", "").strip():
         body["location"] = cells["location"]
     elif "lat" in cells or "lon" in cells:

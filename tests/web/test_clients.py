@@ -191,6 +191,26 @@ def test_csv_round_trip_restores_the_book(client, app, tmp_path):
     other.extensions["rondo_jobs"].join(timeout_s=1)
 
 
+def test_csv_export_defuses_formulas_and_import_restores_them(client, tmp_path):
+    # OWASP "CSV Injection": a cell starting with =, +, -, @, tab or CR is run as a formula
+    # by spreadsheets; the export writes it with a leading apostrophe (shown as text).
+    add_client(client, "=HYPERLINK(\"http://x\")", "47.1, 0.1", notes="+33 2 47 00 00 00")
+    add_client(client, "@home-office", "47.2, 0.2", notes="-")
+    exported = client.get("/api/clients.csv").data
+    rows = list(csv.DictReader(io.StringIO(exported.decode("utf-8"))))
+    assert [(r["name"], r["notes"]) for r in rows] == [
+        ("'=HYPERLINK(\"http://x\")", "'+33 2 47 00 00 00"), ("'@home-office", "'-")]
+    from webapp import create_app
+
+    other = create_app({"DATABASE": str(tmp_path / "other.sqlite")}, instance_path=str(tmp_path))
+    fresh = other.test_client()
+    assert fresh.post("/api/clients/import", data=exported,
+                      content_type="text/csv").json == {"created": 2, "updated": 0}
+    assert sorted((c["name"], c["notes"]) for c in fresh.get("/api/clients").json) == [
+        ("=HYPERLINK(\"http://x\")", "+33 2 47 00 00 00"), ("@home-office", "-")]
+    other.extensions["rondo_jobs"].join(timeout_s=1)
+
+
 def test_import_updates_by_name_and_accepts_the_stops_file_columns(client):
     add_client(client, "Alpha", "47.1, 0.1", visit_min=15)
     text = ("name,location,duration_min,windows,notes\n"

@@ -19,9 +19,12 @@ sign, so it is computed from the duals as read (clipped to their signs), never
 from the LP's optimality. The routes are priced as ng-routes without the break,
 a superset of the real routes: the bound stays valid, only slightly weaker.
 
-The routes generated are also real plans: a set-partitioning integer programme
-over them and the improvement pool ("price and branch", a heuristic) often finds
-a cheaper week than local search.
+The routes generated are also real plans: a dive through the LP (fix the route
+it uses most, price again) and a set-partitioning integer programme over them
+and the improvement pool ("price and branch", a heuristic) often find a cheaper
+week than local search. At the converged duals no route of reduced cost above
+UB − LB can be in a week cheaper than UB, so listing every route within that
+gap (:meth:`WeekColumns.columns_within`) makes set partitioning exact.
 """
 
 from __future__ import annotations
@@ -338,7 +341,8 @@ class WeekColumns:
         if self.settled is None:
             return None
         duals, bound = self.settled
-        threshold = max(0.0, upper - bound)
+        # Float slack on the generous side: a route just past the gap is listed, never missed.
+        threshold = max(0.0, upper - bound) + 1e-6 * max(1.0, abs(upper))
         columns = []
         for d, entry in enumerate(self.days):
             if entry is None:

@@ -38,6 +38,7 @@ from .day import (
 from .errors import Infeasible, InvalidInput, SolverError
 from .loop import solve_loop
 from .result import relative_gap
+from .stopping import past
 
 __all__ = [
     "DAY_METHODS",
@@ -177,7 +178,7 @@ def _insertion_plan(problem: DayProblem, todo: list[int], checked, *, deadline: 
     for j in sorted(todo, key=urgency):
         best = None
         for pos in range(len(order) + 1):
-            if time.perf_counter() > deadline:
+            if past(deadline):
                 return None
             trial = order[:pos] + [j] + order[pos:]
             found = best_timing(problem, trial, checked)
@@ -380,11 +381,11 @@ def _label_search(problem: DayProblem, checked, deadline: float, incumbent,
         upper = float("inf")
     by_return = objective == "return" and np.isfinite(upper)
     for _ in range(m if max_size is None else min(m, max_size)):
-        if time.perf_counter() > deadline:
+        if past(deadline):
             raise _TimeUp(bound_now(layer))
         new_layer: dict[tuple[int, int], tuple[float, float, list]] = {}
         for (mask, last), labels in layer.items():
-            if time.perf_counter() > deadline:
+            if past(deadline):
                 raise _TimeUp(bound_now(layer))
             for j in todo:
                 if mask & bit[j]:
@@ -520,7 +521,7 @@ def explain_infeasible(problem: DayProblem, *, time_limit_s: float = 5.0) -> dic
         for size in range(0, len(candidates) + 1):
             for subset in itertools.combinations(candidates, size):
                 rest = [j for j in todo if j not in subset]
-                if time.perf_counter() > deadline:
+                if past(deadline):
                     raise _TimeUp(0.0)
                 if _feasible(problem, rest, deadline):
                     move = [name[j] for j in subset]

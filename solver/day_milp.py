@@ -30,6 +30,7 @@ from .day import DayPlan, DayProblem, check_day_problem, simulate
 from .errors import Infeasible, InvalidInput
 from .milp_backend import pulp_solver, pulp_verdict
 from .result import relative_gap
+from .stopping import left
 
 __all__ = ["plan_day_milp"]
 
@@ -110,10 +111,10 @@ def plan_day_milp(problem: DayProblem, *, time_limit_s: float = 30.0,
         for subset in cuts:
             prob += pulp.lpSum(x[i, j] for i in subset for j in subset if i != j) \
                 <= len(subset) - 1
-        left = deadline - time.perf_counter()
-        if left <= 0:
+        remaining = left(deadline)
+        if remaining <= 0:
             break
-        prob.solve(pulp_solver(backend=backend, time_limit_s=left,
+        prob.solve(pulp_solver(backend=backend, time_limit_s=remaining,
                                integral_costs=integral and objective == "km"))
         verdict = pulp_verdict(prob)
         if verdict.infeasible:

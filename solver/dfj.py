@@ -31,6 +31,7 @@ import numpy as np
 from .heuristics import iterated_local_search, local_search, loop_cost
 from .milp_backend import new_highs, proof_gaps
 from .result import LoopResult
+from .stopping import left, past
 from .subtours import violated_blossoms, violated_subtours
 
 __all__ = ["solve_dfj"]
@@ -222,7 +223,7 @@ def solve_dfj(
     lp_deadline = started + _LP_SHARE_OF_TIME * time_limit_s
     while rounds < _MAX_LP_ROUNDS:
         rounds += 1
-        model.run(deadline - time.perf_counter())
+        model.run(left(deadline))
         if model.status() != model.highspy.HighsModelStatus.kOptimal:
             break
         lp_bound = model.highs.getInfo().objective_function_value
@@ -230,7 +231,7 @@ def solve_dfj(
         flow = model.flow_matrix(x)
         cuts = violated_subtours(flow, threshold=_LP_THRESHOLD)
         combs = violated_blossoms(flow) if blossoms and not cuts else []
-        if not (cuts or combs) or time.perf_counter() > lp_deadline:
+        if not (cuts or combs) or past(lp_deadline):
             break
         model.add_subtour_cuts(cuts)
         model.add_blossoms(combs)
@@ -291,12 +292,12 @@ def _highs_mip(model, cost, best_order, best_len, lp_bound, abs_gap, deadline, f
     interrupts = 0
     retried_without_presolve = False
     watch = _SubtourWatch(model)
-    while time.perf_counter() < deadline:
+    while not past(deadline):
         hint = highspy.HighsSolution()
         hint.col_value = model.vector_of(best_order).tolist()
         model.highs.setSolution(hint)
         watch.cycles = None
-        model.run(deadline - time.perf_counter())
+        model.run(left(deadline))
         mip_solves += 1
         info = model.highs.getInfo()
         nodes += int(info.mip_node_count)

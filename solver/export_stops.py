@@ -80,12 +80,15 @@ class ExportDay:
 
     ``sequence`` is the calendar revision of this day (RFC 5545 §3.8.7.4) and ``cancelled``
     holds visits exported before for this day and dropped since (see :func:`dropped_stops`).
+    ``withdraw_drives`` says an earlier export of this day held drive events that this one,
+    exported without them, must cancel.
     """
 
     day: date
     stops: tuple[ExportStop, ...]
     sequence: int = 0
     cancelled: tuple[ExportStop, ...] = ()
+    withdraw_drives: bool = False
 
     def __post_init__(self) -> None:
         if isinstance(self.day, datetime) or not isinstance(self.day, date):
@@ -129,6 +132,7 @@ def export_day(
     cancelled: Sequence[ExportStop] = (),
     home_name: str = "Home",
     start_name: str = "Start",
+    withdraw_drives: bool = False,
 ) -> ExportDay:
     """The stops of ``plan`` on ``day``, home (node 0) last, the plan's start first.
 
@@ -175,7 +179,8 @@ def export_day(
         leg_min=_amount(plan.return_leg_min, field="return_leg_min"),
         break_before=plan.break_before_return))
     return ExportDay(day=day, stops=tuple(stops), sequence=sequence,
-                     cancelled=_check_cancelled(cancelled, seen))
+                     cancelled=_check_cancelled(cancelled, seen),
+                     withdraw_drives=bool(withdraw_drives))
 
 
 def dropped_stops(previous: Sequence[ExportStop], current: ExportDay) -> tuple[ExportStop, ...]:

@@ -20,6 +20,8 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from .stopping import past
+
 __all__ = [
     "loop_cost",
     "nearest_neighbour",
@@ -201,7 +203,7 @@ def iterated_local_search(
     if n < 8:
         return best
     kicks = 0
-    while time.perf_counter() < deadline and (max_kicks is None or kicks < max_kicks):
+    while not past(deadline) and (max_kicks is None or kicks < max_kicks):
         kicks += 1
         candidate = local_search(cost, _double_bridge(best, rng))
         length = loop_cost(cost, candidate)
@@ -328,7 +330,7 @@ def _symmetric_ils(cost: np.ndarray, start: Sequence[int], *, deadline: float,
     search(list(range(n)))
     best, best_len = tour[:], length()
     kicks = 0
-    while time.perf_counter() < deadline and (max_kicks is None or kicks < max_kicks):
+    while not past(deadline) and (max_kicks is None or kicks < max_kicks):
         kicks += 1
         # A double bridge on a stretch of at most 50 positions, so only its cities move.
         span = min(n, 50)

@@ -23,8 +23,10 @@ the same (:func:`drive_uid`). For each day the caller stores the last exported S
 the visit stops exported; every new export of that day passes a larger ``sequence`` and, as
 ``cancelled``, the stored visits the new plan no longer holds
 (:func:`solver.export_stops.dropped_stops`). Those are written with STATUS:CANCELLED under
-their old UIDs and times, so a calendar that imported the earlier file drops them. Keep
-``include_travel`` the same for all exports of a day, or stale drive events stay behind.
+their old UIDs and times, so a calendar that imported the earlier file drops them. An
+export without drive events after one with them passes ``withdraw_drives`` on the day: the
+drive events of every visit and of the way home are then written cancelled, under their
+UIDs, so none stays behind in the calendar.
 """
 
 from __future__ import annotations
@@ -146,6 +148,9 @@ def _day_events(day: ExportDay, zone: ZoneInfo, dtstamp: datetime, include_trave
     if include_travel and (visits or day.cancelled):
         events.append(_drive_event(day, home, day.stops[-2].name, zone, dtstamp,
                                    cancelled=not visits))
+    if not include_travel and day.withdraw_drives:
+        for stop in (*visits, *day.cancelled, home):
+            events.append(_drive_event(day, stop, None, zone, dtstamp, cancelled=True))
     return events
 
 

@@ -24,7 +24,6 @@ clients (earlier is never worse: waiting is allowed).
 
 from __future__ import annotations
 
-import time
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -32,6 +31,7 @@ import numpy as np
 
 from .clock import Window
 from .day import earliest_start
+from .stopping import past
 
 __all__ = ["PricingDay", "PricedRoute", "Pricing", "price_routes"]
 
@@ -113,19 +113,47 @@ def neighbourhoods(day: PricingDay, size: int) -> list[int]:
     return masks
 
 
-def _completion(day: PricingDay, prizes: np.ndarray, steps: int) -> np.ndarray:
+def _completion(day: PricingDay, prizes: np.ndarray, steps: int,
+                ng: Sequence[int] | None = None) -> np.ndarray:
     """rest[r, j]: a lower bound on finishing from j with at most r more visits (km − prizes).
 
-    A plain shortest-walk recursion without time or elementarity (a relaxation).
+    A shortest-walk recursion without time, with 2-cycles j → k → j eliminated where
+    the routes priced forbid them (q-routes without 2-cycles, Christofides, Mingozzi &
+    Toth 1981): for elementary routes everywhere, for ng-routes where j lies in k's
+    neighbourhood (bit masks ``ng``; None: elementary). Each step keeps the best
+    finish from every client and the best whose first move goes elsewhere.
     """
     n = day.size
     km = day.km[: n + 1, : n + 1]
+    # moves[i, k]: the cost of stepping from i to k (column 0: home, ending the route).
+    moves = np.empty((n + 1, n + 1))
+    moves[:, 0] = km[:, 0]
+    moves[:, 1:] = km[:, 1:] - prizes[None, :]
+    np.fill_diagonal(moves[1:, 1:], np.inf)
+    moves[0, 0] = np.inf  # the route leaves home before it comes back
+    index = np.arange(n + 1)
+    if ng is None:
+        forbidden = np.ones((n + 1, n + 1), dtype=bool)
+    else:
+        forbidden = np.array([[bool(ng[k] >> i & 1) for k in range(n + 1)]
+                              for i in range(n + 1)])
+    forbidden[:, 0] = False
     rest = np.empty((steps + 1, n + 1))
     rest[0] = km[:, 0]
-    step = km[:, 1:] - prizes[None, :]
-    np.fill_diagonal(step[1:], np.inf)
+    best, first = km[:, 0].copy(), np.zeros(n + 1, dtype=int)  # first move 0: straight home
+    second = np.full(n + 1, np.inf)
     for r in range(1, steps + 1):
-        rest[r] = np.minimum(km[:, 0], (step + rest[r - 1][None, 1:]).min(axis=1))
+        # Finishing from k after arriving from i: k's best, unless that goes straight back
+        # to i where the routes forbid it; then k's best going elsewhere.
+        back_to_i = (first[None, :] == index[:, None]) & forbidden
+        after = np.where(back_to_i, second[None, :], best[None, :])
+        after[:, 0] = 0.0
+        total = moves + after
+        order = np.argsort(total, axis=1)
+        first = order[:, 0]
+        best = total[index, first]
+        second = total[index, order[:, 1]]
+        rest[r] = best
     return rest
 
 
@@ -144,8 +172,8 @@ def price_routes(day: PricingDay, prizes: Sequence[float], day_dual: float = 0.0
     if n == 0:
         return Pricing((), min(0.0, -day_dual), 0)
     steps = day.most_visits()
-    rest = _completion(day, prizes, steps)
     ng = neighbourhoods(day, n if bucket is not None else ng_size)
+    rest = _completion(day, prizes, steps, ng)
     km = day.km.tolist()
     minutes = day.minutes.tolist()
     prize = [0.0] + prizes.tolist()
@@ -177,7 +205,7 @@ def price_routes(day: PricingDay, prizes: Sequence[float], day_dual: float = 0.0
         for label in layer:
             if not label[6]:
                 continue
-            if deadline is not None and time.perf_counter() > deadline:
+            if deadline is not None and past(deadline):
                 complete = False
                 break
             cost0, t0, _, mem, here, _, _ = label
@@ -283,7 +311,7 @@ def routes_within(day: PricingDay, prizes: Sequence[float], day_dual: float, thr
     if n == 0:
         return found
     steps = day.most_visits()
-    rest = _completion(day, prizes, steps)
+    rest = _completion(day, prizes, steps)  # elementary: every 2-cycle is out
     km = day.km.tolist()
     minutes = day.minutes.tolist()
     prize = [0.0] + prizes.tolist()
@@ -306,7 +334,7 @@ def routes_within(day: PricingDay, prizes: Sequence[float], day_dual: float, thr
         nxt: dict[tuple[int, int], list] = {}
         keys, nodes = ahead[steps - count]
         for (here, mask), labels in layer.items():
-            if deadline is not None and time.perf_counter() > deadline:
+            if deadline is not None and past(deadline):
                 return None
             row_km, row_min = km[here], minutes[here]
             for cost0, t0, km0, order in labels:

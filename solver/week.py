@@ -38,10 +38,11 @@ from .day import DayPlan, DayProblem, DayRules, Visit
 from .day_exact import best_subset_routes, plan_day
 from .errors import Infeasible, InvalidInput, SolverError
 from .loop import solve_loop
-from .milp_backend import new_highs
+from .milp_backend import new_highs, stop_highs_when
 from .result import relative_gap
+from .stopping import left, past
 from .week_bound import WeekColumns
-from .week_improve import improve_week
+from .week_improve import improve_week, polish_week
 
 __all__ = [
     "WorkDay",
@@ -54,6 +55,17 @@ __all__ = [
 ]
 
 EXACT_WEEK_MAX_VISITS = 16  # beyond this the per-day set listing grows past a few seconds
+# Shares of the column path's time limit at which each phase must end.
+_SHARES = {"improve": 0.25, "bound": 0.6, "dive": 0.7, "partition": 0.76, "polish": 0.84,
+           "listing": 0.92}
+_DIVES = 4  # dives through the LP, each starting from a different route
+_PARTITION_MAX_ROUTES = 2500  # routes offered to one set partitioning of the known routes
+_LISTING_SHARES = (0.1, 0.25, 0.5, 1.0)  # of the gap, listed in turn (_list_and_partition)
+_LISTING_MAX_ROUTES = 4000  # beyond this set partitioning over the listing takes too long
+# Routes listed grow about tenfold from one share of the gap to the next (measured on
+# 40-visit weeks: 3.5x from 2 to 4 km, 8x from 4 to 8 km, 14x from 8 to 16 km).
+_LISTING_GROWTH = 10
+_LISTING_PARTITION_S = 8.0  # for each set partitioning over a listing
 _EPS = 1e-7
 
 
@@ -225,7 +237,7 @@ def plan_week(problem: WeekProblem, *, time_limit_s: float = 60.0,
             return _listed_week(problem, km, minutes, started, deadline)  # its verdict proves
         raise
     if method == "auto" and small and not plan.proven_optimal and (
-            time.perf_counter() < deadline):
+            not past(deadline)):
         try:
             return _listed_week(problem, km, minutes, started, deadline)
         except SolverError:
@@ -240,61 +252,107 @@ def _listed_week(problem, km, minutes, started, deadline) -> WeekPlan:
 
 
 def _column_week(problem, km, minutes, started, deadline) -> WeekPlan:
-    """The column path (see :func:`plan_week`)."""
+    """The column path (see :func:`plan_week`); the time limit is shared out by
+    :data:`_SHARES`, and ``stats["phase_s"]`` says where it went."""
     now = time.perf_counter()
     budget = max(0.0, deadline - now)
+
+    def until(phase: str) -> float:
+        return now + _SHARES[phase] * budget
+
+    phases: dict[str, float] = {}
+    mark = time.perf_counter()
+
+    def done(phase: str) -> None:
+        nonlocal mark
+        phases[phase] = round(time.perf_counter() - mark, 3)
+        mark = time.perf_counter()
+
+    failed = None
     try:
-        assignment, stats, pool = improve_week(problem, km, minutes, now + 0.3 * budget,
+        assignment, stats, pool = improve_week(problem, km, minutes, until("improve"),
                                                day_problem=_day_problem, cap_ok=_day_cap_ok)
         current_km = _pool_km(pool, assignment)
     except Infeasible as unplaced:
         # Greedy placement can fail where a week exists: the columns may still find one.
         assignment, stats, pool, current_km, failed = None, {}, [], float("inf"), unplaced
     stats["pool_columns"] = len(pool)
+    stats["phase_s"] = phases
+    done("improve")
     columns = WeekColumns(problem, km, minutes, pool, day_problem=_day_problem)
-    found = columns.bound(now + 0.7 * budget,
-                          upper=None if assignment is None else current_km)
-    if assignment is None or found.bound is None or (
-            found.bound < current_km - _proof_slack(current_km)):
-        # The columns priced are real day plans: a dive through the LP, then one
-        # set-partitioning pass over every plan known (the improving method's included,
-        # so the week can only keep or lower its km).
-        dived = columns.dive(now + 0.75 * budget)
-        known = {(d, names): cost for d, names, cost in pool}
-        for key, cost in columns.real.items():
-            known[key] = min(cost, known.get(key, cost))
-        if dived is not None:
-            dived_km = sum(known[key] for key in dived)
-            stats["dive_km"] = round(dived_km, 3)
-            if dived_km < current_km - 1e-6:
-                assignment, current_km = _assignment_of(problem, dived), dived_km
-        best = None if assignment is None else [
-            (d, frozenset(c.name for c in cl)) for d, cl in enumerate(assignment)]
-        try:
-            pooled, partition = _set_partition(
-                problem, [(d, names, cost) for (d, names), cost in known.items()],
-                max(now + 0.82 * budget, time.perf_counter() + 1.0), start=best)
-            pooled_km = sum(known.get((d, frozenset(c.name for c in cl)), 0.0)
-                            for d, cl in enumerate(pooled))
-            stats["partition_proven"] = partition["proven"]
-            if pooled_km < current_km - 1e-6:
-                assignment = pooled
-                stats["recombined"] = True
-        except SolverError:
-            pass  # over the columns known only: never a proof that no week exists
-        if assignment is None:
-            raise failed
-        current_km = min(current_km, _known_km(known, assignment))
-        proven = _prove_by_enumeration(problem, columns, known, assignment, current_km,
-                                       max(now + 0.92 * budget, time.perf_counter()), stats)
-        if proven is not None:
-            stats.update(found.stats())
-            return _finish(problem, km, minutes, proven, started, proven=True,
-                           method="enumeration", stats=stats)
+    found = columns.bound(until("bound"), upper=None if assignment is None else current_km)
     stats.update(found.stats())
+    done("bound")
+    if assignment is not None and found.bound is not None and (
+            found.bound >= current_km - _proof_slack(current_km)):
+        return _finish(problem, km, minutes, assignment, started, proven=False,
+                       method="improve", stats=stats, column_bound=found.bound)
+    # The routes priced are real day plans: dives through the LP, then set partitioning
+    # over every plan known (the improving method's included, so the week can only keep
+    # or lower its km), then over every route within a growing gap of the bound.
+    known = {(d, names): cost for d, names, cost in pool}
+    dives = []
+    for rank in range(_DIVES):
+        if past(until("dive")):
+            break
+        dived = columns.dive(until("dive"), first_rank=rank)
+        if dived is not None:
+            dives.append(dived)
+    for key, cost in columns.real.items():
+        known[key] = min(cost, known.get(key, cost))
+    stats["dive_km"] = [round(_known_routes_km(known, dived), 3) for dived in dives]
+    for dived in dives:
+        if _known_routes_km(known, dived) < current_km - 1e-6:
+            assignment, current_km = _assignment_of(problem, dived), _known_routes_km(known,
+                                                                                        dived)
+    done("dive")
+    start = None if assignment is None else [
+        (d, frozenset(c.name for c in cl)) for d, cl in enumerate(assignment)]
+    # Presolve of a large set-partitioning model ignores the time limit (measured: 7 s on
+    # 5,600 routes), so it gets the routes of least reduced cost, the known weeks' included.
+    offered = columns.most_promising(
+        known, _PARTITION_MAX_ROUTES,
+        always=[key for routes in ([start] if start else []) + dives for key in routes])
+    stats["partition_routes"] = len(offered)
+    try:
+        pooled, partition = _set_partition(
+            problem, [(d, names, cost) for (d, names), cost in offered.items()],
+            max(until("partition"), time.perf_counter() + 1.0), start=start)
+        stats["partition_proven"] = partition["proven"]
+        if _known_km(offered, pooled) < current_km - 1e-6:
+            assignment, current_km = pooled, _known_km(offered, pooled)
+            stats["recombined"] = True
+    except SolverError:
+        pass  # over the columns known only: never a proof that no week exists
+    done("partition")
+    if assignment is None:
+        raise failed
+    if not past(until("polish")):
+        # The routes chosen come from the LP; moves and swaps between their days may
+        # still save km (each confirmed by exact re-solves of both days).
+        polished = polish_week(problem, km, minutes, until("polish"), assignment,
+                               day_problem=_day_problem, cap_ok=_day_cap_ok)
+        if polished is not None and polished[1]:
+            for d, names, cost in polished[2]:
+                known[(d, names)] = min(cost, known.get((d, names), cost))
+            if _known_km(known, polished[0]) < current_km - 1e-6:
+                assignment, current_km = polished[0], _known_km(known, polished[0])
+                stats["polish_moves"] = polished[1]
+    done("polish")
+    assignment, current_km, proven = _list_and_partition(
+        problem, columns, known, assignment, current_km,
+        max(until("listing"), time.perf_counter()), stats)
+    done("listing")
+    if proven:
+        return _finish(problem, km, minutes, assignment, started, proven=True,
+                       method="enumeration", stats=stats)
     return _finish(problem, km, minutes, assignment, started, proven=False, method="improve",
                    stats=stats, column_bound=found.bound,
-                   bound_time_s=max(1.0, deadline - time.perf_counter()))
+                   bound_time_s=max(1.0, left(deadline)))
+
+
+def _known_routes_km(known, routes) -> float:
+    return sum(known[key] for key in routes)
 
 
 def _known_km(known, assignment) -> float:
@@ -302,27 +360,53 @@ def _known_km(known, assignment) -> float:
                for d, cl in enumerate(assignment))
 
 
-def _prove_by_enumeration(problem, columns, known, assignment, current_km, deadline, stats):
-    """The proven optimal week when every route that could beat ``current_km`` can be
-    listed in time (:meth:`solver.week_bound.WeekColumns.columns_within`), else None."""
-    if time.perf_counter() >= deadline:
-        return None
-    listed = columns.columns_within(current_km, deadline)
-    if listed is None:
-        stats["enumerated"] = None
-        return None
-    stats["enumerated"] = len(listed)
+def _list_and_partition(problem, columns, known, assignment, current_km, deadline, stats):
+    """Set partitioning over every route within a growing reduced-cost gap of the bound.
+
+    At the converged duals every route of a week of km z has a reduced cost of at most
+    z − bound. So once set partitioning over all routes within a gap g (and those known)
+    is proven and the best week found is within g of the bound, that week is optimal
+    (route enumeration, Baldacci, Christofides & Mingozzi 2008). The gap grows from a
+    quarter of the current one: small listings are quick and already find better weeks,
+    which shrink the gap the proof needs. Returns (assignment, km, proven).
+    """
+    bound = columns.settled_bound
+    if bound is None:
+        return assignment, current_km, False
     everything = dict(known)
-    for d, names, cost in listed:
-        everything[(d, names)] = min(cost, everything.get((d, names), cost))
-    start = [(d, frozenset(c.name for c in cl)) for d, cl in enumerate(assignment)]
-    try:
-        chosen, partition = _set_partition(
-            problem, [(d, names, cost) for (d, names), cost in everything.items()],
-            max(deadline, time.perf_counter() + 1.0), start=start)
-    except SolverError:
-        return None
-    return chosen if partition["proven"] else None
+    listed_within = -1.0
+    sizes = []
+    for share in _LISTING_SHARES:
+        if past(deadline):
+            break
+        gap = share * max(0.0, current_km - bound)
+        if gap <= listed_within:
+            continue
+        listed = columns.columns_within(gap, deadline)
+        if listed is None or len(listed) > _LISTING_MAX_ROUTES:
+            break  # too many routes (or no time) for this gap
+        listed_within = gap
+        sizes.append(len(listed))
+        for d, names, cost in listed:
+            everything[(d, names)] = min(cost, everything.get((d, names), cost))
+        start = [(d, frozenset(c.name for c in cl)) for d, cl in enumerate(assignment)]
+        try:
+            chosen, partition = _set_partition(
+                problem, [(d, names, cost) for (d, names), cost in everything.items()],
+                min(deadline, time.perf_counter() + _LISTING_PARTITION_S), start=start)
+        except SolverError:
+            break
+        chosen_km = _known_km(everything, chosen)
+        if chosen_km < current_km - 1e-6:
+            assignment, current_km = chosen, chosen_km
+            stats["listing_improved"] = True
+        if partition["proven"] and current_km - bound <= gap + _proof_slack(current_km):
+            stats["enumerated"] = sizes
+            return assignment, current_km, True
+        if len(listed) * _LISTING_GROWTH > _LISTING_MAX_ROUTES:
+            break  # the next gap would list too many routes: not worth its time
+    stats["enumerated"] = sizes
+    return assignment, current_km, False
 
 
 def _assignment_of(problem, routes) -> list[list[WeekClient]]:
@@ -347,6 +431,8 @@ def _proof_slack(total_km: float) -> float:
 
 def _finish(problem, km, minutes, assignment, started, *, proven, method, stats,
             column_bound: float | None = None, bound_time_s: float = 20.0) -> WeekPlan:
+    """Each chosen day planned exactly, the totals, and the week's bound and proof."""
+    began = time.perf_counter()
     plans: list[DayPlan | None] = []
     for d, clients in enumerate(assignment):
         if not clients:
@@ -364,6 +450,8 @@ def _finish(problem, km, minutes, assignment, started, *, proven, method, stats,
         bound, note = _week_lower_bound(problem, km, time_limit_s=min(20.0, bound_time_s))
     if not proven and bound >= total_km - _proof_slack(total_km):
         proven, note = True, "proven optimal week: its km meet the lower bound"
+    if "phase_s" in stats:
+        stats["phase_s"]["finish"] = round(time.perf_counter() - began, 3)
     return WeekPlan(
         days=tuple(plans),
         day_names=tuple(d.name for d in problem.days),
@@ -430,11 +518,11 @@ def _exact_assignment(problem, km, minutes, deadline):
     columns: list[tuple[int, frozenset, float]] = []
     for d, day in enumerate(problem.days):
         open_here = [c for c in problem.clients if d in c.days_open(n_days)]
-        left = deadline - time.perf_counter()
-        if left <= 0:
+        remaining = left(deadline)
+        if remaining <= 0:
             raise SolverError("the week's time limit ran out while listing day plans")
         routes = best_subset_routes(_day_problem(problem, km, minutes, d, open_here),
-                                    max_size=day.max_visits, time_limit_s=left)
+                                    max_size=day.max_visits, time_limit_s=remaining)
         for members, (km_total, back, _) in routes.items():
             if _day_cap_ok(day, len(members), back):
                 names = frozenset(open_here[k - 1].name for k in members)
@@ -466,7 +554,7 @@ def _set_partition(problem, columns, deadline, start=None):
                 span = list(range(first, min(n_days, first + c.min_gap_days)))
                 if len(span) > 1:
                     gap_rows.append((c.name, span))
-    highs = new_highs(time_limit_s=max(0.1, deadline - time.perf_counter()))
+    highs = new_highs(time_limit_s=max(0.1, left(deadline)))
     inf = highs.getInfinity()
     lower = [float(c.visits) for c in clients] + [0.0] * n_days + [-inf] * len(gap_rows)
     upper = [float(c.visits) for c in clients] + [1.0] * n_days + [1.0] * len(gap_rows)
@@ -501,6 +589,7 @@ def _set_partition(problem, columns, deadline, start=None):
         known = highspy.HighsSolution()
         known.col_value = values.tolist()
         highs.setSolution(known)
+    stop_highs_when(highs, lambda: past(deadline))
     highs.run()
     status = highs.getModelStatus()
     if status == highspy.HighsModelStatus.kInfeasible:
@@ -542,8 +631,8 @@ def quote_week_days(problem: WeekProblem, plan: WeekPlan, client: WeekClient, *,
     saving = 0.0
     if moving_from is not None:
         stay = [by_name[n] for n in plan.assignment[moving_from] if n != client.name]
-        left = day_km(moving_from, stay)
-        saving = (plan.days[moving_from].total_km - left) if left is not None else 0.0
+        without = day_km(moving_from, stay)
+        saving = (plan.days[moving_from].total_km - without) if without is not None else 0.0
     quotes = []
     for d in range(from_day, n_days):
         if d not in client.days_open(n_days) or d == moving_from:

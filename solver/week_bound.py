@@ -39,6 +39,7 @@ from .day_exact import best_timing, plan_day
 from .errors import SolverError
 from .milp_backend import new_highs
 from .route_pricing import PricingDay, price_routes, routes_within
+from .stopping import left, past
 
 __all__ = ["ColumnBound", "WeekColumns"]
 
@@ -213,6 +214,7 @@ class WeekColumns:
             (d, frozenset(names)): float(cost) for d, names, cost in pool}
         self.result = ColumnBound(None, None, False, 0, 0)
         self.settled: tuple[np.ndarray, float] | None = None  # duals and bound at convergence
+        self.last_duals: np.ndarray | None = None
         self.started = time.perf_counter()
 
     # --- the bound -----------------------------------------------------------------------
@@ -241,11 +243,12 @@ class WeekColumns:
 
     def _rounds(self, deadline: float, upper: float | None) -> None:
         result = self.result
-        while time.perf_counter() < deadline:
+        while not past(deadline):
             solved = self.master.solve()
             if solved is None:
                 break
             value, duals, x = solved
+            self.last_duals = duals
             result.rounds += 1
             result.lp_value = value
             if self._price_all(duals, deadline, bucket=4):
@@ -333,16 +336,44 @@ class WeekColumns:
 
     # --- every column that could matter ------------------------------------------------
 
-    def columns_within(self, upper: float, deadline: float, *, max_labels: int = 400_000):
+    def most_promising(self, routes: dict, keep: int, *, always=()) -> dict:
+        """The ``keep`` routes {(day, client names): km} of least reduced cost at the last
+        duals (all of them before any), plus the keys in ``always``: what set partitioning
+        gets when every route known would make its presolve too slow."""
+        if len(routes) <= keep or self.last_duals is None:
+            return dict(routes)
+        duals = self.settled[0] if self.settled is not None else self.last_duals
+        scored = []
+        for (d, names), km in routes.items():
+            entry = self.days[d]
+            if entry is None:
+                continue
+            open_here = [c.name for c in entry[0]]
+            prize = dict(zip(open_here, self.master.prizes(duals, d, open_here), strict=True))
+            scored.append((km - sum(prize[n] for n in names) - self.master.day_dual(duals, d),
+                           (d, names)))
+        scored.sort(key=lambda item: item[0])
+        chosen = {key: routes[key] for _, key in scored[:keep]}
+        for key in always:
+            if key in routes:
+                chosen[key] = routes[key]
+        return chosen
+
+    @property
+    def settled_bound(self) -> float | None:
+        """The LP bound at the converged duals (None before convergence)."""
+        return None if self.settled is None else self.settled[1]
+
+    def columns_within(self, gap: float, deadline: float, *, max_labels: int = 150_000):
         """Every real (day, client names, km) whose reduced cost at the converged duals
-        is at most ``upper`` − bound: all a week cheaper than ``upper`` could use
+        is at most ``gap``: all that a week within ``gap`` of the bound could use
         (:func:`solver.route_pricing.routes_within`). None if not converged, or if
         the routes are too many or time runs out."""
         if self.settled is None:
             return None
         duals, bound = self.settled
         # Float slack on the generous side: a route just past the gap is listed, never missed.
-        threshold = max(0.0, upper - bound) + 1e-6 * max(1.0, abs(upper))
+        threshold = max(0.0, gap) + 1e-6 * max(1.0, abs(bound))
         columns = []
         for d, entry in enumerate(self.days):
             if entry is None:
@@ -359,22 +390,26 @@ class WeekColumns:
                     # Listed without the break: the set's own cost with it, proven.
                     try:
                         length = plan_day(replace(sub, todo=tuple(sorted(order))),
-                                          time_limit_s=max(0.5, deadline - time.perf_counter()),
+                                          time_limit_s=max(0.5, left(deadline)),
                                           explain=False, tie_break=False).total_km
                     except SolverError:
                         continue  # no break fits (or not settled): never used as a plan
-                    if time.perf_counter() > deadline:
+                    if past(deadline):
                         return None
                 columns.append((d, frozenset(open_here[k - 1].name for k in order), length))
         return columns
 
     # --- plans from the columns ----------------------------------------------------------
 
-    def dive(self, deadline: float) -> list[tuple[int, frozenset]] | None:
+    def dive(self, deadline: float, *, first_rank: int = 0,
+             backtracks: int = 4) -> list[tuple[int, frozenset]] | None:
         """A week from the LP by diving (a classic branch-and-price heuristic): fix the
         real route the LP uses most, price the open days again, repeat until the LP is
-        integral. Returns (day, client names) of each route, or None if the dive fails.
-        Every bound changed here is restored on the way out."""
+        integral. The first fix takes the route of rank ``first_rank`` instead (so that
+        several dives go different ways); a fix that leaves some visit uncoverable is
+        undone and that route set aside, up to ``backtracks`` times. Returns (day, client
+        names) of each route, or None if the dive fails. Every bound changed here is
+        restored on the way out."""
         master = self.master
         master.unban_found = False
         banned_before = set(master.banned)
@@ -382,7 +417,7 @@ class WeekColumns:
         fixed: list[int] = []
         plan = None
         try:
-            while time.perf_counter() < deadline:
+            while not past(deadline):
                 solved = master.solve()
                 if solved is None:
                     break
@@ -397,14 +432,20 @@ class WeekColumns:
                 if self._price_all(duals, deadline, bucket=4, closed=closed, done=done):
                     self._ban_unreal()
                     continue
-                support = [j for j in np.flatnonzero(x > 1e-6).tolist()]
+                support = np.flatnonzero(x > 1e-6).tolist()
                 if any(master.columns[j][0] is None for j in support):
-                    break  # the open days cannot be covered by the routes known: no plan
+                    # The open days cannot cover every visit with the routes known.
+                    if not fixed or backtracks <= 0:
+                        break
+                    backtracks -= 1
+                    master.ban(fixed.pop())  # unfixed, and kept out of this dive
+                    continue
                 if all(x[j] > 1 - 1e-6 for j in support):
                     plan = [(master.columns[j][0], frozenset(master.columns[j][1]))
                             for j in support]
                     break
-                pick = max((j for j in support if j not in fixed), key=lambda j: x[j])
+                ranked = sorted((j for j in support if j not in fixed), key=lambda j: -x[j])
+                pick = ranked[min(first_rank, len(ranked) - 1)] if not fixed else ranked[0]
                 master.fix(pick)
                 fixed.append(pick)
         finally:

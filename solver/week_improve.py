@@ -20,8 +20,9 @@ from collections.abc import Sequence
 from .day import earliest_start
 from .day_exact import best_timing, plan_day
 from .errors import Infeasible, SolverError
+from .stopping import left, past
 
-__all__ = ["improve_week"]
+__all__ = ["improve_week", "polish_week"]
 
 _SAVES = 1e-6  # a move must save more than this many km
 
@@ -117,8 +118,7 @@ class _Week:
             try:
                 plan = plan_day(self.day_problem(self.problem, self.km, self.minutes, day,
                                                  list(clients)),
-                                time_limit_s=max(1.0, min(10.0, self.deadline -
-                                                          time.perf_counter())),
+                                time_limit_s=max(1.0, min(10.0, left(self.deadline))),
                                 explain=False, tie_break=False)
                 if self.cap_ok(spec, len(clients), plan.return_min):
                     result = (plan.total_km, [clients[v.node - 1] for v in plan.visits])
@@ -163,7 +163,7 @@ def improve_week(problem, km, minutes, deadline, *, day_problem, cap_ok, starts:
     began = time.perf_counter()
     last_start_at = began + 0.4 * max(0.0, deadline - began)
     for start in range(starts):
-        if start and time.perf_counter() >= last_start_at:
+        if start and past(last_start_at):
             break
         week = _Week(problem, km, minutes, deadline, day_problem, cap_ok)
         week.exact = exact  # proven day sets are shared by every start
@@ -195,9 +195,27 @@ def improve_week(problem, km, minutes, deadline, *, day_problem, cap_ok, starts:
             explanation={"summary": "the visits could not all be placed on their allowed days "
                          "(windows, caps or the gap between visits)"})
     stats = {"exact_day_solves": len(exact), "starts": runs, "moves": best[2],
-             "stopped": "time limit" if time.perf_counter() >= deadline else "no move helps"}
+             "stopped": "time limit" if past(deadline) else "no move helps"}
     pool = [(day, names, value[0]) for (day, names), value in exact.items() if value is not None]
     return best[1], stats, pool
+
+
+def polish_week(problem, km, minutes, deadline, assignment, *, day_problem, cap_ok):
+    """``assignment`` (clients per day) improved by the same moves and swaps, each day
+    re-solved exactly: (clients per day in proven order, moves made, pool of proven day
+    sets), or None when a day of it does not fit as given."""
+    week = _Week(problem, km, minutes, deadline, day_problem, cap_ok)
+    for d, clients in enumerate(assignment):
+        solved = week.exact_cost(d, list(clients))
+        if solved is None:
+            return None
+        week.orders[d] = solved[1]
+        for client in clients:
+            week.taken[client.name].append(d)
+    moves = _local_search(week)
+    pool = [(day, names, value[0]) for (day, names), value in week.exact.items()
+            if value is not None]
+    return [list(o) for o in week.orders], moves, pool
 
 
 def _construct(week: _Week, order) -> None:
@@ -270,11 +288,11 @@ def _local_search(week: _Week) -> int:
     """Moves and swaps between days until none saves km (or time runs out)."""
     moves = 0
     improved = True
-    while improved and time.perf_counter() < week.deadline:
+    while improved and not past(week.deadline):
         improved = False
         for a, b in itertools.permutations(range(week.n_days), 2):
             for client in list(week.orders[a]):
-                if time.perf_counter() >= week.deadline:
+                if past(week.deadline):
                     return moves
                 if client not in week.orders[a] or b not in week.open_days(client):
                     continue
@@ -290,7 +308,7 @@ def _local_search(week: _Week) -> int:
                     improved = True
         for a, b in itertools.combinations(range(week.n_days), 2):
             for x, y in itertools.product(list(week.orders[a]), list(week.orders[b])):
-                if time.perf_counter() >= week.deadline:
+                if past(week.deadline):
                     return moves
                 if x not in week.orders[a] or y not in week.orders[b]:
                     continue

@@ -231,6 +231,21 @@ def test_travel_events_cover_each_drive_and_the_way_home():
     assert len({str(e["UID"]) for e in events}) == len(events)  # §3.8.4.7: unique
 
 
+def test_withdrawn_drives_come_cancelled_under_their_uids_and_only_without_travel():
+    # §3.8.1.11: STATUS:CANCELLED under the UID the drive was first sent with.
+    day = sample_day(sequence=3, withdraw_drives=True)
+    events = Calendar.from_ical(day_calendar(day, tz_name=VIENNA, stamp=STAMP)).walk("VEVENT")
+    drives = [e for e in events if "TRAVEL" in e.categories]
+    expected = [drive_uid(day.day, s.uid_key) for s in day.visits] + [drive_uid(day.day, None)]
+    assert [str(e["UID"]) for e in drives] == expected
+    assert {str(e["STATUS"]) for e in drives} == {"CANCELLED"}
+    assert {int(e["SEQUENCE"]) for e in drives} == {3}
+    # Exported with drives again, the flag is moot: the drives are simply current.
+    again = Calendar.from_ical(day_calendar(day, tz_name=VIENNA, include_travel=True,
+                                            stamp=STAMP)).walk("VEVENT")
+    assert {str(e["STATUS"]) for e in again if "TRAVEL" in e.categories} == {"CONFIRMED"}
+
+
 def test_alarm_fires_the_chosen_minutes_before_leaving():
     day = sample_day()
     calendar, other = both_parsers(day_calendar(day, tz_name=VIENNA, alarm_before_leaving_min=15,

@@ -24,8 +24,17 @@ from hypothesis import strategies as st
 from solver.clock import Window
 from solver.day import BreakRule, DayRules
 from solver.errors import Infeasible
-from solver.week import WeekClient, WeekProblem, WorkDay, _check, _day_problem, plan_week
+from solver.week import (
+    WeekClient,
+    WeekProblem,
+    WorkDay,
+    _check,
+    _day_cap_ok,
+    _day_problem,
+    plan_week,
+)
 from solver.week_bound import WeekColumns
+from solver.week_improve import polish_week
 
 
 def _week(seed: int, n_clients: int, n_days: int, *, cap: int | None, repeat: bool,
@@ -191,3 +200,47 @@ def test_listing_every_route_within_the_gap_proves_the_week(seed, lunch):
     assert improved.proven_optimal
     assert improved.total_km == pytest.approx(exact.total_km, abs=1e-6)
     assert improved.lower_bound <= exact.total_km + 1e-6
+
+
+def test_polishing_a_spoilt_week_never_makes_it_worse_and_keeps_its_rules():
+    problem = _week(7, 9, 3, cap=4, repeat=False)
+    km, minutes = _check(problem)
+    exact = plan_week(problem, method="exact")
+    by_name = {c.name: c for c in problem.clients}
+    spoilt = [[by_name[n] for n in names] for names in exact.assignment]
+    # Every client that may go elsewhere moves one day on, where that keeps the rules.
+    for d in range(3):
+        for c in list(spoilt[d]):
+            other = (d + 1) % 3
+            if other in c.days_open(3) and len(spoilt[other]) < 4:
+                spoilt[d].remove(c)
+                spoilt[other].append(c)
+                break
+    polished = polish_week(problem, km, minutes, time.perf_counter() + 30, spoilt,
+                           day_problem=_day_problem, cap_ok=_day_cap_ok)
+    assert polished is not None  # seed 7: the spoilt days still fit
+    days, moves, pool = polished
+    assert moves > 0
+    proven = {(d, names): cost for d, names, cost in pool}
+    total = sum(proven[(d, frozenset(c.name for c in cl))] if cl else 0.0
+                for d, cl in enumerate(days))
+    spoilt_total = sum(proven[(d, frozenset(c.name for c in cl))] if cl else 0.0
+                       for d, cl in enumerate(spoilt))
+    assert exact.total_km - 1e-6 <= total <= spoilt_total + 1e-6
+    for d, clients in enumerate(days):
+        assert len(clients) <= 4 and all(d in c.days_open(3) for c in clients)
+    assert sorted(c.name for cl in days for c in cl) == sorted(by_name)
+
+
+def test_set_partitioning_is_offered_the_routes_of_least_reduced_cost():
+    problem = _week(5, 8, 3, cap=4, repeat=False)
+    pool, _ = _start_pool(problem)
+    km, minutes = _check(problem)
+    columns = WeekColumns(problem, km, minutes, pool, day_problem=_day_problem)
+    columns.bound(time.perf_counter() + 60)
+    routes = dict(columns.real)
+    assert columns.most_promising(routes, len(routes)) == routes
+    must = [next(iter(routes))]
+    few = columns.most_promising(routes, 5, always=must)
+    assert len(few) in (5, 6) and must[0] in few
+    assert all(routes[key] == km_ for key, km_ in few.items())

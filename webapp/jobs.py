@@ -1,6 +1,7 @@
 """Solves off the request thread: POST starts a job, GET polls it, DELETE stops waiting for it.
 
-The solver's own time limit bounds the work; cancelling discards the result when it comes.
+The solver's own time limit bounds the work; cancelling calls the solve off (it stops within
+a fraction of a second, see :mod:`solver.stopping`) and discards whatever it returns.
 """
 
 from __future__ import annotations
@@ -16,6 +17,8 @@ from dataclasses import dataclass, field
 from flask import current_app
 from werkzeug.exceptions import TooManyRequests
 
+from solver.stopping import stop_when
+
 from .db import connect
 from .errors import NotFound, error_body
 
@@ -24,7 +27,7 @@ __all__ = ["Job", "JobRegistry", "init_app", "registry"]
 log = logging.getLogger(__name__)
 MAX_KEPT = 200  # finished jobs remembered for late polls
 WORKERS = 2  # one per core: each solve is single-threaded
-# Solves running or waiting for a worker, superseded ones included (they run to their limit).
+# Solves running or waiting for a worker, superseded ones included (they stop within moments).
 # Beyond this a new one would wait many time limits; it is refused with 429 (RFC 6585 §4).
 MAX_WAITING = 16
 
@@ -124,7 +127,10 @@ class JobRegistry:
                     return
                 job.state, job.started = "running", time.monotonic()
             try:
-                answer = job.compute()
+                # A cancelled or superseded solve winds down as at its time limit and frees
+                # its worker at once, instead of holding it until that limit.
+                with stop_when(lambda: job.state == "cancelled"):
+                    answer = job.compute()
             except Exception as exc:  # noqa: BLE001 - every failure becomes the job's answer
                 self._fail(job, exc)
                 return

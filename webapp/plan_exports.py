@@ -71,10 +71,12 @@ class StoredDay:
     done_keys: frozenset[str]
     tz_name: str
 
-    def export(self, *, sequence: int = 0, cancelled: Sequence[ExportStop] = ()) -> ExportDay:
+    def export(self, *, sequence: int = 0, cancelled: Sequence[ExportStop] = (),
+               withdraw_drives: bool = False) -> ExportDay:
         return export_day(self.date, self.plan, positions=self.positions, notes=self.notes,
                           keys=self.keys, sequence=sequence, cancelled=cancelled,
-                          home_name=self.home_name, start_name=self.start_name)
+                          home_name=self.home_name, start_name=self.start_name,
+                          withdraw_drives=withdraw_drives)
 
 
 def client_key(client_id: int) -> str:
@@ -173,7 +175,7 @@ def day_file(conn, date: dt.date, fmt: str, *, include_travel: bool = False,
         return ExportFile(data, name, FORMATS[fmt])
     with transaction(conn):
         stored = stored_day(conn, date)
-        revised, keep = _revise(conn, stored)
+        revised, keep = _revise(conn, stored, include_travel=include_travel)
         data = day_calendar(revised, tz_name=stored.tz_name, include_travel=include_travel,
                             alarm_before_leaving_min=alarm_min)
         _remember(conn, revised, keep, include_travel=include_travel)
@@ -200,7 +202,7 @@ def week_file(conn, monday: dt.date, *, include_travel: bool = False,
                 stored = stored_day(conn, monday + dt.timedelta(days=offset))
             except NoPlan:
                 continue
-            revised.append(_revise(conn, stored))
+            revised.append(_revise(conn, stored, include_travel=include_travel))
         if not revised:
             raise NoPlan(monday.isoformat(), f"no day of the week from {monday.isoformat()} "
                          "has a plan to export")
@@ -211,14 +213,16 @@ def week_file(conn, monday: dt.date, *, include_travel: bool = False,
     return ExportFile(data, f"rondo-week-{monday.isoformat()}.ics", FORMATS["ics"])
 
 
-def _revise(conn, stored: StoredDay) -> tuple[ExportDay, tuple[ExportStop, ...]]:
+def _revise(conn, stored: StoredDay, *,
+            include_travel: bool) -> tuple[ExportDay, tuple[ExportStop, ...]]:
     """The export with its SEQUENCE and cancellations, and done visits to keep remembering.
 
     Visits already done are neither cancelled nor forgotten: a re-plan from the road leaves
-    them out of the plan, but they happened.
+    them out of the plan, but they happened. Drive events of the last export are withdrawn
+    (a new SEQUENCE) when this one goes without them.
     """
     draft = stored.export()
-    row = conn.execute("SELECT sequence, signature, stops_json FROM day_exports "
+    row = conn.execute("SELECT sequence, signature, stops_json, include_travel FROM day_exports "
                        "WHERE plan_date = ?", (stored.date.isoformat(),)).fetchone()
     if row is None:
         return draft, ()
@@ -227,8 +231,10 @@ def _revise(conn, stored: StoredDay) -> tuple[ExportDay, tuple[ExportStop, ...]]
     keep = tuple(s for s in previous if s.uid_key in stored.done_keys and s.uid_key not in planned)
     candidates = [s for s in previous if s.uid_key not in stored.done_keys]
     cancelled = dropped_stops(candidates, draft)
-    changed = row["signature"] != _signature(draft)
-    return stored.export(sequence=row["sequence"] + int(changed), cancelled=cancelled), keep
+    withdraw = bool(row["include_travel"]) and not include_travel
+    changed = row["signature"] != _signature(draft) or withdraw
+    return stored.export(sequence=row["sequence"] + int(changed), cancelled=cancelled,
+                         withdraw_drives=withdraw), keep
 
 
 def _remember(conn, day: ExportDay, keep: tuple[ExportStop, ...], *,

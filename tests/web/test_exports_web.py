@@ -196,6 +196,33 @@ def test_re_exports_keep_uids_raise_sequence_and_cancel_dropped_visits(client, c
     assert row[0] == 3
 
 
+def _drives(events) -> dict[str, dict]:
+    """Drive events by UID: sequence and status."""
+    return {str(e["uid"]): {"seq": int(e["sequence"]), "status": str(e["status"])}
+            for e in events if "TRAVEL" in [str(c) for c in e.get("categories").cats]}
+
+
+def test_exporting_without_drives_after_with_them_cancels_the_old_drive_events(client):
+    # RFC 5545 §3.8.1.11 and §3.8.7.4: the calendar drops an event when a later SEQUENCE of
+    # the same UID says CANCELLED; otherwise the first file's drives would stay for good.
+    set_home(client)
+    _day(client, PLACES[:3])
+    _solve(client, WEDNESDAY)
+    with_drives = _events(client.get(f"/api/days/{WEDNESDAY}/export.ics?travel=1").data)
+    drives = _drives(with_drives)
+    assert len(drives) == 4 and {d["status"] for d in drives.values()} == {"CONFIRMED"}
+    without = _events(client.get(f"/api/days/{WEDNESDAY}/export.ics").data)
+    withdrawn = _drives(without)
+    assert set(withdrawn) == set(drives)
+    assert {d["status"] for d in withdrawn.values()} == {"CANCELLED"}
+    assert {d["seq"] for d in withdrawn.values()} == {1}
+    assert {v["seq"] for v in _visits(without).values()} == {1}
+    assert {v["status"] for v in _visits(without).values()} == {"CONFIRMED"}
+    # Once withdrawn, later exports without drives hold none, and change no SEQUENCE.
+    again = _events(client.get(f"/api/days/{WEDNESDAY}/export.ics").data)
+    assert _drives(again) == {} and {v["seq"] for v in _visits(again).values()} == {1}
+
+
 def test_the_week_file_holds_every_planned_day_with_its_own_sequence(client):
     set_home(client)
     wed = _day(client, PLACES[:2])

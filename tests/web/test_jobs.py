@@ -7,8 +7,12 @@ common practice, no source.
 from __future__ import annotations
 
 import threading
+import time
+
+import numpy as np
 
 from solver.errors import InvalidInput
+from solver.loop import solve_loop
 from webapp.jobs import Job, JobRegistry
 
 
@@ -63,6 +67,32 @@ def test_a_newer_job_for_the_same_day_supersedes_the_older(tmp_path):
     assert registry.join(5)
     assert (old.state, new.state, other.state) == ("cancelled", "done", "done")
     assert sorted(stored) == ["new", "other"]
+
+
+def _long_loop():
+    """A real 250-stop loop solve with a 60 s limit: it runs to that limit when left alone."""
+    rng = np.random.default_rng(11)
+    p = rng.uniform(0, 100, (250, 2))
+    return solve_loop(np.sqrt(((p[:, None] - p[None]) ** 2).sum(-1)), time_limit_s=60)
+
+
+def test_cancelled_and_superseded_solves_free_their_workers_at_once(tmp_path):
+    # Both workers busy with real long solves; one cancelled, the other superseded: both
+    # stop within moments (5 s here, common practice, no source), and the newer job runs.
+    registry = JobRegistry(str(tmp_path / "jobs.sqlite"))
+    stored = []
+    first = registry.submit(_job(registry, key="week:a", compute=_long_loop, stored=stored))
+    second = registry.submit(_job(registry, key="week:b", compute=_long_loop, stored=stored))
+    time.sleep(0.5)
+    assert (first.state, second.state) == ("running", "running")
+    started = time.monotonic()
+    registry.cancel(first.id)
+    newer = registry.submit(_job(registry, key="week:b", compute=lambda: "newer",
+                                 stored=stored))
+    assert registry.join(5), "a called-off solve kept its worker"
+    assert time.monotonic() - started < 5
+    assert (first.state, second.state, newer.state) == ("cancelled", "cancelled", "done")
+    assert stored == ["newer"]
 
 
 def test_a_failing_solve_becomes_the_jobs_error_with_its_field(tmp_path):

@@ -62,8 +62,12 @@ def plan_day_milp(problem: DayProblem, *, time_limit_s: float = 30.0,
 
     arcs = [(origin, j) for j in todo] + [(i, j) for i in todo for j in todo if i != j]
     arcs += [(i, home) for i in todo] or [(origin, home)]
-    earliest = {j: max(windows[j][0][0], t0 + minutes[origin, j]) for j in todo}
-    latest = {j: min(windows[j][-1][1], rules.end_min - service[j] - minutes[j, 0])
+    # Bounds on each start from the quickest drives there and home. Entered drives need not
+    # obey the triangle inequality (a detour via another visit can be quicker), so these are
+    # shortest paths, never the direct legs: the direct leg would wrongly rule visits out.
+    quickest = _shortest_paths(minutes)
+    earliest = {j: max(windows[j][0][0], t0 + quickest[origin, j]) for j in todo}
+    latest = {j: min(windows[j][-1][1], rules.end_min - service[j] - quickest[j, 0])
               for j in todo}
     for j in todo:
         if earliest[j] > latest[j] + 1e-9:
@@ -166,3 +170,11 @@ def _cycles(succ: dict, missing: list[int]) -> list[list[int]]:
             here = succ[here]
         cycles.append(cycle)
     return cycles
+
+
+def _shortest_paths(minutes: np.ndarray) -> np.ndarray:
+    """All-pairs quickest drives (Floyd–Warshall, 1962), vectorised by intermediate node."""
+    quickest = np.array(minutes, dtype=float)
+    for k in range(len(quickest)):
+        quickest = np.minimum(quickest, quickest[:, k : k + 1] + quickest[k : k + 1, :])
+    return quickest

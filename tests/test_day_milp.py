@@ -71,6 +71,18 @@ def test_milp_agrees_with_the_brute_force(problem):
         assert plan.return_min == pytest.approx(expected[1])
 
 
+def test_a_detour_quicker_than_the_direct_leg_is_not_ruled_out():
+    # Entered drives need not obey the triangle inequality: home -> b takes 1 min, but
+    # home -> a -> b takes 0, so b's 08:00 appointment is kept via a (found by Hypothesis
+    # against the brute force; the oracle is tests/_day_oracle.py).
+    km = np.array([[0, 0, 1], [0, 0, 0], [0, 0, 0]], dtype=float)
+    visits = (Visit("a", 0, (Window(480, 480),)), Visit("b", 0, (Window(480, 480),)))
+    problem = DayProblem(km, km, visits, DayRules(480, 600))
+    assert oracle.best(problem, "km") == (0.0, 480.0)
+    plan = plan_day(problem, method="milp")
+    assert plan.proven_optimal and plan.order == (1, 2) and plan.return_min == 480.0
+
+
 def test_zero_time_cycle_is_cut():
     # Two visits at the same spot, zero duration, zero legs between them: time alone would
     # allow x_12 = x_21 = 1 as a separate cycle; the subtour cut must remove it.

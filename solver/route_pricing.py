@@ -157,6 +157,38 @@ def _completion(day: PricingDay, prizes: np.ndarray, steps: int,
     return rest
 
 
+class _Search:
+    """What both label searches read, as plain lists for speed.
+
+    ``ahead[left][0 or 1][here]``: the candidates from ``here`` with ``left`` visits to
+    spare, sorted by the key cost-so-far must stay below for the route to close within
+    ``limit``: km[here][i] − prize[i] + rest[left][i] − day_dual − limit. A search stops
+    scanning a row at the first key ≥ −cost (every later one is larger).
+    """
+
+    def __init__(self, day: PricingDay, prizes: np.ndarray, day_dual: float, *,
+                 limit: float, ng: Sequence[int] | None):
+        n = day.size
+        self.steps = day.most_visits()
+        rest = _completion(day, prizes, self.steps, ng)
+        self.km = day.km.tolist()
+        self.minutes = day.minutes.tolist()
+        self.prize = [0.0] + prizes.tolist()
+        self.service = (0.0,) + tuple(day.service)
+        self.windows = ((),) + tuple(day.windows)
+        self.end = day.end_min
+        self.back = [self.minutes[i][0] for i in range(n + 1)]
+        self.limit = limit
+        step_cost = day.km[:, 1:] - prizes[None, :]
+        self.ahead = []
+        for left in range(self.steps):
+            key = step_cost + rest[left][None, 1:] - day_dual - limit
+            key[np.arange(1, n + 1), np.arange(n)] = np.inf
+            rank = np.argsort(key, axis=1, kind="stable")
+            self.ahead.append((np.take_along_axis(key, rank, axis=1).tolist(),
+                               (rank + 1).tolist()))
+
+
 def price_routes(day: PricingDay, prizes: Sequence[float], day_dual: float = 0.0, *,
                  ng_size: int = 8, bucket: int | None = None, max_routes: int = 30,
                  deadline: float | None = None) -> Pricing:
@@ -171,28 +203,13 @@ def price_routes(day: PricingDay, prizes: Sequence[float], day_dual: float = 0.0
     prizes = np.asarray(prizes, dtype=float)
     if n == 0:
         return Pricing((), min(0.0, -day_dual), 0)
-    steps = day.most_visits()
     ng = neighbourhoods(day, n if bucket is not None else ng_size)
-    rest = _completion(day, prizes, steps, ng)
-    km = day.km.tolist()
-    minutes = day.minutes.tolist()
-    prize = [0.0] + prizes.tolist()
-    service = (0.0,) + tuple(day.service)
-    windows = ((),) + tuple(day.windows)
-    end = day.end_min
-    back = [minutes[i][0] for i in range(n + 1)]
+    # only labels that could still close with a negative reduced cost matter
+    search = _Search(day, prizes, day_dual, limit=-1e-7, ng=ng)
+    steps, km, minutes, prize = search.steps, search.km, search.minutes, search.prize
+    service, windows, end, back = search.service, search.windows, search.end, search.back
+    ahead, limit = search.ahead, search.limit
     reach = n if bucket is None else min(n, _HEURISTIC_REACH)
-    limit = -1e-7  # only labels that could still close with a negative reduced cost matter
-    # Going from ``here`` to i with ``left`` visits to spare can close below ``limit`` only if
-    # cost + km[here][i] - prize[i] + rest[left][i] - day_dual < limit: sort each
-    # (left, here) row of candidates by that key once, and stop at the first that cannot.
-    step_cost = day.km[:, 1:] - prizes[None, :]
-    ahead = []
-    for left in range(steps):
-        key = step_cost + rest[left][None, 1:] - day_dual - limit
-        key[np.arange(1, n + 1), np.arange(n)] = np.inf
-        rank = np.argsort(key, axis=1, kind="stable")
-        ahead.append((np.take_along_axis(key, rank, axis=1).tolist(), (rank + 1).tolist()))
     # A label: [cost, leave_min, count, memory, node, parent, alive]
     root = [0.0, day.start_min, 0, 0, 0, None, True]
     kept: list[list[list]] = [[] for _ in range(n + 1)]
@@ -218,6 +235,8 @@ def price_routes(day: PricingDay, prizes: Sequence[float], day_dual: float = 0.0
                 if mem >> i & 1:
                     continue
                 cost = cost0 + row_km[i] - prize[i]
+                # The timing rules of solver.day.simulate, inlined in both searches (the
+                # innermost loop: a call per extension costs a tenth of the search).
                 begin = earliest_start(windows[i], t0 + row_min[i])
                 if begin is None:
                     continue
@@ -310,23 +329,10 @@ def routes_within(day: PricingDay, prizes: Sequence[float], day_dual: float, thr
     found: dict[int, tuple[float, tuple[int, ...]]] = {}
     if n == 0:
         return found
-    steps = day.most_visits()
-    rest = _completion(day, prizes, steps)  # elementary: every 2-cycle is out
-    km = day.km.tolist()
-    minutes = day.minutes.tolist()
-    prize = [0.0] + prizes.tolist()
-    service = (0.0,) + tuple(day.service)
-    windows = ((),) + tuple(day.windows)
-    end = day.end_min
-    back = [minutes[i][0] for i in range(n + 1)]
-    limit = threshold + 1e-7
-    step_cost = day.km[:, 1:] - prizes[None, :]
-    ahead = []
-    for left in range(steps):
-        key = step_cost + rest[left][None, 1:] - day_dual - limit
-        key[np.arange(1, n + 1), np.arange(n)] = np.inf
-        rank = np.argsort(key, axis=1, kind="stable")
-        ahead.append((np.take_along_axis(key, rank, axis=1).tolist(), (rank + 1).tolist()))
+    search = _Search(day, prizes, day_dual, limit=threshold + 1e-7, ng=None)  # elementary
+    steps, km, minutes, prize = search.steps, search.km, search.minutes, search.prize
+    service, windows, end, back = search.service, search.windows, search.end, search.back
+    ahead, limit = search.ahead, search.limit
     # A label: (cost, leave_min, km, order); one Pareto list per (client, set visited).
     layer: dict[tuple[int, int], list] = {(0, 0): [(0.0, day.start_min, 0.0, ())]}
     total = 0

@@ -1,13 +1,14 @@
 """The week's column-generation bound against the LP it relaxes, solved independently.
 
 Oracle: every feasible (day, set of clients) column of a tiny week, each costed
-by trying every order with this file's own clock, and the set-partitioning LP
-over all of them solved by CBC through PuLP (a solver the project does not use
-for this model). Column generation with elementary pricing must reach that LP
-value exactly (Desrochers, Desrosiers & Solomon 1992: column generation solves
-the LP over all columns); with ng-routes (the default) it may only be lower.
-Every bound must stay below the week's true optimum (Lasdon 1970's Lagrangian
-argument), breaks and repeated visits included. Invented random data.
+by trying every order with the week tests' own clock (tests/test_week.py), and
+the set-partitioning LP over all of them solved by CBC through PuLP (a solver
+the project does not use for this model). Column generation with elementary
+pricing must reach that LP value exactly (Desrochers, Desrosiers & Solomon
+1992: column generation solves the LP over all columns); with ng-routes (the
+default) it may only be lower. Every bound must stay below the week's true
+optimum (Lasdon 1970's Lagrangian argument), breaks and repeated visits
+included. Invented random data.
 """
 
 from __future__ import annotations
@@ -36,6 +37,8 @@ from solver.week import (
 from solver.week_bound import WeekColumns
 from solver.week_improve import polish_week
 
+from .test_week import _day_best  # every order tried, timed by that file's own clock
+
 
 def _week(seed: int, n_clients: int, n_days: int, *, cap: int | None, repeat: bool,
           lunch: bool = False) -> WeekProblem:
@@ -60,30 +63,6 @@ def _week(seed: int, n_clients: int, n_days: int, *, cap: int | None, repeat: bo
     return WeekProblem(km, minutes, tuple(clients), days)
 
 
-def _order_km(problem: WeekProblem, day: int, clients) -> float | None:
-    """The least km of visiting ``clients`` on ``day`` (no break), by trying every order."""
-    rules = problem.days[day].rules
-    best = None
-    for perm in itertools.permutations(clients):
-        t, here, total, ok = rules.start_min, 0, 0.0, True
-        for c in perm:
-            t += problem.minutes[here, c.node]
-            total += problem.km[here, c.node]
-            wins = [w for w in c.windows_on(day) if t <= w.end_min]
-            if c.windows_on(day) and not wins:
-                ok = False
-                break
-            if wins:
-                t = max(t, wins[0].start_min)
-            t += c.service_min
-            here = c.node
-        t += problem.minutes[here, 0]
-        total += problem.km[here, 0]
-        if ok and t <= rules.end_min + 1e-9 and (best is None or total < best):
-            best = total
-    return best
-
-
 def _lp_over_every_column(problem: WeekProblem) -> float | None:
     n_days = len(problem.days)
     lp = pulp.LpProblem("week", pulp.LpMinimize)
@@ -95,7 +74,7 @@ def _lp_over_every_column(problem: WeekProblem) -> float | None:
             if cap is not None and size > cap:
                 break
             for subset in itertools.combinations(open_here, size):
-                cost = _order_km(problem, d, subset)
+                cost = _day_best(problem, d, subset)
                 if cost is not None:
                     columns.append((d, {c.name for c in subset}, cost,
                                     pulp.LpVariable(f"x{len(columns)}", lowBound=0)))

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 from webapp import create_app
@@ -38,3 +40,21 @@ def conn(app):
     connection = connect(app.config["DATABASE"])
     yield connection
     connection.close()
+
+
+@pytest.fixture(scope="module")
+def browser():
+    """One headless Debian Chromium per test module, with the flags of tests/web/browser.py.
+
+    Modules that need their own start (a recording proxy, a pinned certificate) define
+    a ``browser`` fixture of their own, which takes precedence over this one.
+    """
+    from .browser import CHROMIUM, CHROMIUM_ARGS
+
+    if not Path(CHROMIUM).exists():
+        pytest.skip(f"{CHROMIUM} is not installed (apt-get install chromium)")
+    playwright_api = pytest.importorskip("playwright.sync_api")
+    with playwright_api.sync_playwright() as p:
+        chromium = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+        yield chromium
+        chromium.close()

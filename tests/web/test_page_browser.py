@@ -12,7 +12,6 @@ from __future__ import annotations
 import json
 import urllib.parse
 import urllib.request
-from pathlib import Path
 
 import pytest
 
@@ -25,8 +24,6 @@ pytestmark = pytest.mark.browser
 
 from .browser import (  # noqa: E402
     ARTIFACTS,
-    CHROMIUM,
-    CHROMIUM_ARGS,
     PHONE,
     keep_on_loopback,
 )
@@ -45,16 +42,6 @@ HOSTILE = "<img src=x onerror=alert(1)>"
 def server(tmp_path_factory):
     with running_server(tmp_path_factory.mktemp("browser") / "data", demo=True) as (base, _):
         yield base
-
-
-@pytest.fixture(scope="module")
-def browser():
-    if not Path(CHROMIUM).exists():
-        pytest.skip(f"{CHROMIUM} is not installed (apt-get install chromium)")
-    with playwright_api.sync_playwright() as p:
-        chromium = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 @pytest.fixture

@@ -25,8 +25,6 @@ pytestmark = pytest.mark.browser
 
 from .browser import (  # noqa: E402
     ARTIFACTS,
-    CHROMIUM,
-    CHROMIUM_ARGS,
     PHONE,
     keep_on_loopback,
 )
@@ -41,16 +39,6 @@ CAP = "6"  # about thirty demo clients, six a day: all five weekdays are used
 def server(tmp_path_factory):
     with running_server(tmp_path_factory.mktemp("week-browser") / "data", demo=True) as (base, _):
         yield base
-
-
-@pytest.fixture(scope="module")
-def browser():
-    if not Path(CHROMIUM).exists():
-        pytest.skip(f"{CHROMIUM} is not installed (apt-get install chromium)")
-    with playwright_api.sync_playwright() as p:
-        chromium = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 def _page(browser, profile):

@@ -37,16 +37,13 @@ from solver.week import (
 from solver.week_bound import WeekColumns
 from solver.week_improve import polish_week
 
-from .test_week import _day_best  # every order tried, timed by that file's own clock
+from .test_week import _day_best, _random_places  # its own clock and invented places
 
 
 def _week(seed: int, n_clients: int, n_days: int, *, cap: int | None, repeat: bool,
           lunch: bool = False) -> WeekProblem:
     rng = np.random.default_rng(seed)
-    p = rng.uniform(-20, 20, (n_clients + 1, 2))
-    p[0] = 0.0
-    km = np.round(np.sqrt(((p[:, None] - p[None]) ** 2).sum(-1)) * 1.3, 3)
-    minutes = np.round(km / 50 * 60, 3)
+    km, minutes = _random_places(rng, n_clients)
     clients = []
     for k in range(1, n_clients + 1):
         allowed = tuple(sorted(rng.choice(n_days, size=int(rng.integers(1, n_days + 1)),

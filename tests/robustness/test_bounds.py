@@ -15,6 +15,7 @@ import time
 
 import pytest
 
+from tests.web.helpers import wait_job_id
 from webapp.jobs import MAX_WAITING, Job
 from webapp.planning import MAX_VISITS_PER_SOLVE
 
@@ -54,16 +55,6 @@ def _slow_day(client, *, count: int = SLOW_CLIENTS, time_limit_s: float = 3.0) -
     return ids
 
 
-def _wait(client, job_id: str, *, timeout_s: float = 120.0) -> dict:
-    deadline = time.monotonic() + timeout_s
-    while time.monotonic() < deadline:
-        job = client.get(f"/api/jobs/{job_id}").json
-        if job["state"] not in ("queued", "running"):
-            return job
-        time.sleep(0.05)
-    raise AssertionError(f"job {job_id} did not end within {timeout_s} s: it hangs")
-
-
 def test_a_day_with_more_visits_than_a_solve_takes_is_refused_clearly(world):
     client = world.client
     ids = _slow_day(client, count=MAX_VISITS_PER_SOLVE + 2)
@@ -99,7 +90,7 @@ def test_a_second_solve_of_the_same_day_supersedes_the_first(world):
     # The first is told it was superseded at once; its answer will be thrown away.
     assert client.get(f"/api/jobs/{first.json['id']}").json["state"] == "cancelled"
     assert client.get(f"/api/days/{WEDNESDAY}").json["job"]["id"] == second.json["id"]
-    done = _wait(client, second.json["id"])
+    done = wait_job_id(client, second.json["id"], timeout_s=120)
     assert done["state"] == "done", done
     world.settle()  # the superseded solve runs to its own limit, then stores nothing
     stored = world.conn.execute("SELECT count(*) FROM plan_solves").fetchone()[0]
@@ -132,7 +123,7 @@ def test_solves_beyond_the_waiting_bound_get_429_and_store_nothing(world):
     # Once they are done the same request is taken.
     again = client.post(f"/api/days/{WEDNESDAY}/solve")
     assert again.status_code == 202
-    assert _wait(client, again.json["id"])["state"] == "done"
+    assert wait_job_id(client, again.json["id"], timeout_s=120)["state"] == "done"
 
 
 @pytest.fixture(scope="module")

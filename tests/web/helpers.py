@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import json
 import time
+import urllib.request
 
 # Home and clients of the tests: invented places around Tours, France.
 HOME = "47.36300, 0.73900"
@@ -30,14 +32,28 @@ def add_client(client, name: str, location: str, *, visit_min: int = 30, windows
 def wait_job(client, response, *, timeout_s: float = 60.0) -> dict:
     """Poll the job a 202 answer started until it ends; return its last state."""
     assert response.status_code == 202, response.json
-    job_id = response.json["id"]
+    return wait_job_id(client, response.json["id"], timeout_s=timeout_s)
+
+
+def wait_job_id(client, job_id: str, *, timeout_s: float = 60.0) -> dict:
+    """Poll job ``job_id`` until it ends; return its last state."""
     deadline = time.monotonic() + timeout_s
     while time.monotonic() < deadline:
         job = client.get(f"/api/jobs/{job_id}").json
         if job["state"] not in ("queued", "running"):
             return job
         time.sleep(0.05)
-    raise AssertionError(f"job {job_id} still running after {timeout_s} s")
+    raise AssertionError(f"job {job_id} still running after {timeout_s} s: it hangs")
+
+
+def live_api(base: str, method: str, path: str, body=None):
+    """One JSON request to a running server (``base`` like http://127.0.0.1:PORT)."""
+    data = json.dumps(body).encode() if body is not None else None
+    request = urllib.request.Request(base + path, method=method, data=data,
+                                     headers={"Content-Type": "application/json"})
+    with urllib.request.urlopen(request, timeout=10) as response:
+        text = response.read()
+    return json.loads(text) if text else None
 
 
 def dump(conn) -> list[str]:

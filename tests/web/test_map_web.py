@@ -17,8 +17,6 @@ import re
 import socket
 import subprocess
 import sys
-import urllib.parse
-import urllib.request
 from html.parser import HTMLParser
 from pathlib import Path
 
@@ -35,7 +33,7 @@ from .browser import (  # noqa: E402
     PHONE,
     keep_on_loopback,
 )
-from .helpers import WEDNESDAY, set_home
+from .helpers import WEDNESDAY, live_api, set_home
 from .live_server import ROOT, get_json, running_server
 from .test_exports_web import GEO_URI, HOSTILE, PLACES, _day, _solve
 
@@ -183,15 +181,6 @@ def _free_port() -> int:
         return sock.getsockname()[1]
 
 
-def _api(base: str, method: str, path: str, body=None):
-    data = json.dumps(body).encode() if body is not None else None
-    request = urllib.request.Request(base + path, method=method, data=data,
-                                     headers={"Content-Type": "application/json"})
-    with urllib.request.urlopen(request, timeout=10) as response:
-        text = response.read()
-    return json.loads(text) if text else None
-
-
 def _flat(pairs) -> list[float]:
     return [x for pair in pairs for x in pair]
 
@@ -253,12 +242,12 @@ def test_the_phone_page_maps_the_solved_loop_and_hands_out_files(tmp_path_factor
             playwright_api.sync_playwright() as p:
         clients = {c["name"]: c for c in get_json(base + "/api/clients?active=true")}
         home = get_json(base + "/api/settings")["home"]
-        hostile = _api(base, "POST", "/api/clients", {
+        hostile = live_api(base, "POST", "/api/clients", {
             "name": HOSTILE, "location": f"{home['lat'] + 0.012}, {home['lon'] - 0.01}",
             "visit_min": 15})
         clients[HOSTILE] = hostile
         chosen = [clients[name]["id"] for name in DEMO_CLIENTS] + [hostile["id"]]
-        _api(base, "PUT", f"/api/days/{WEDNESDAY}/visits", {"client_ids": chosen})
+        live_api(base, "PUT", f"/api/days/{WEDNESDAY}/visits", {"client_ids": chosen})
 
         browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
         context = browser.new_context(**PHONE, accept_downloads=True)

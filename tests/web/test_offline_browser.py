@@ -30,6 +30,7 @@ expect = playwright_api.expect
 
 from webapp.icon_art import png_bytes  # noqa: E402
 
+from .helpers import live_api  # noqa: E402
 from .live_server import running_server  # noqa: E402
 
 pytestmark = pytest.mark.browser
@@ -154,29 +155,21 @@ def _shot(page, name: str) -> None:
     page.screenshot(path=str(ARTIFACTS / f"{name}.png"))
 
 
-def _api(base: str, method: str, path: str, body=None):
-    data = json.dumps(body).encode() if body is not None else None
-    request = urllib.request.Request(base + path, method=method, data=data,
-                                     headers={"Content-Type": "application/json"})
-    with urllib.request.urlopen(request, timeout=10) as response:
-        text = response.read()
-    return json.loads(text) if text else None
-
-
 def _ids(base: str, names) -> dict[str, int]:
-    book = {c["name"]: c["id"] for c in _api(base, "GET", "/api/clients")}
+    book = {c["name"]: c["id"] for c in live_api(base, "GET", "/api/clients")}
     return {name: book[name] for name in names}
 
 
 def _solved_day(base: str, date: str, names) -> dict:
     """Choose and solve the day through the API, as the laptop would have it."""
-    _api(base, "PUT", f"/api/days/{date}/visits", {"client_ids": list(_ids(base, names).values())})
-    job = _api(base, "POST", f"/api/days/{date}/solve")
+    live_api(base, "PUT", f"/api/days/{date}/visits",
+             {"client_ids": list(_ids(base, names).values())})
+    job = live_api(base, "POST", f"/api/days/{date}/solve")
     deadline = time.monotonic() + SOLVE_TIMEOUT_S
     while job["state"] in ("queued", "running"):
         assert time.monotonic() < deadline, "the solve did not finish"
         time.sleep(0.2)
-        job = _api(base, "GET", f"/api/jobs/{job['id']}")
+        job = live_api(base, "GET", f"/api/jobs/{job['id']}")
     assert job["state"] == "done" and job["result"]["plan"]["feasible"], job
     return job["result"]
 
@@ -284,7 +277,7 @@ def test_offline_the_day_stays_readable_and_a_done_mark_waits(server, phone):
     expect(page.locator("#outbox-summary")).to_have_text("1 change waits to be sent")
     expect(first).to_have_class(re.compile(r"\bqueued\b"))
     expect(page.locator("#done-list")).to_contain_text(planned[0])
-    assert _api(server, "GET", f"/api/days/{WEDNESDAY}")["done"] == []
+    assert live_api(server, "GET", f"/api/days/{WEDNESDAY}")["done"] == []
     page.reload()
     expect(bar).to_have_attribute("data-waiting", "1")
     expect(stops.nth(0)).to_have_class(re.compile(r"\bqueued\b"))
@@ -299,7 +292,7 @@ def test_offline_the_day_stays_readable_and_a_done_mark_waits(server, phone):
     expect(page.locator("#outbox-list")).to_contain_text(f"Done: {planned[0]}, 09:05–09:40")
     expect(page.locator("#outbox-list")).to_contain_text(f"Last-minute visit: {EXTRA_CLIENT}")
     _shot(page, "offline-02-outbox-waiting")
-    assert len(_api(server, "GET", f"/api/days/{WEDNESDAY}")["choices"]) == len(DAY_CLIENTS)
+    assert len(live_api(server, "GET", f"/api/days/{WEDNESDAY}")["choices"]) == len(DAY_CLIENTS)
 
     # Back online: both are sent in order, once, and the outbox says when.
     page.context_ref.set_offline(False)
@@ -307,7 +300,7 @@ def test_offline_the_day_stays_readable_and_a_done_mark_waits(server, phone):
     expect(page.locator("#outbox-summary")).to_have_text(re.compile(
         r"^Sent: 2 changes, last at \d\d:\d\d$"))
     expect(page.locator("#outbox-list .sent")).to_have_count(2)
-    day = _api(server, "GET", f"/api/days/{WEDNESDAY}")
+    day = live_api(server, "GET", f"/api/days/{WEDNESDAY}")
     assert [(d["client_id"], d["arrived"], d["departed"]) for d in day["done"]] == [
         (first_id, "09:05", "09:40")]
     extra = [c for c in day["choices"] if c["name"] == EXTRA_CLIENT]
@@ -362,9 +355,9 @@ def test_conflicts_stay_on_the_phone_marked_for_a_look(server, phone):
     expect(page.locator("#offline-bar")).to_have_attribute("data-waiting", "3")
 
     # Meanwhile on the laptop.
-    _api(server, "PUT", f"/api/days/{THURSDAY}/visits", {"client_ids": [names[DAY_CLIENTS[1]]]})
-    _api(server, "PUT", f"/api/clients/{names['Cabane à Outils']}", {"visit_min": 35})
-    _api(server, "PUT", f"/api/clients/{names['Verger des Quatre Vents']}",
+    live_api(server, "PUT", f"/api/days/{THURSDAY}/visits", {"client_ids": [names[DAY_CLIENTS[1]]]})
+    live_api(server, "PUT", f"/api/clients/{names['Cabane à Outils']}", {"visit_min": 35})
+    live_api(server, "PUT", f"/api/clients/{names['Verger des Quatre Vents']}",
          {"notes": "Closed for stocktaking"})
 
     page.context_ref.set_offline(False)
@@ -382,18 +375,18 @@ def test_conflicts_stay_on_the_phone_marked_for_a_look(server, phone):
     _shot(page, "offline-04-needs-a-look")
 
     # What was sent: only the field the rep changed; the laptop's own change kept.
-    cabane = _api(server, "GET", f"/api/clients/{names['Cabane à Outils']}")
+    cabane = live_api(server, "GET", f"/api/clients/{names['Cabane à Outils']}")
     assert (cabane["notes"], cabane["visit_min"]) == ("Ring at the side door", 35)
-    verger = _api(server, "GET", f"/api/clients/{names['Verger des Quatre Vents']}")
+    verger = live_api(server, "GET", f"/api/clients/{names['Verger des Quatre Vents']}")
     assert verger["notes"] == "Closed for stocktaking"
-    assert _api(server, "GET", f"/api/days/{THURSDAY}")["done"] == []
+    assert live_api(server, "GET", f"/api/days/{THURSDAY}")["done"] == []
 
     # The rep decides: send the note anyway; the done mark stays until dropped by hand.
     clash.get_by_role("button", name="Send mine anyway").click()
     expect(page.locator("#outbox-list .sent", has_text="Verger des Quatre Vents")).to_have_count(
         1, timeout=SYNC_TIMEOUT_MS)
     expect(bar).to_have_attribute("data-look", "1")
-    verger = _api(server, "GET", f"/api/clients/{names['Verger des Quatre Vents']}")
+    verger = live_api(server, "GET", f"/api/clients/{names['Verger des Quatre Vents']}")
     assert verger["notes"] == "Ask for the orchard manager"
     kept = page.locator("#outbox-list .look")
     kept.get_by_role("button", name="Drop it").click()

@@ -9,15 +9,12 @@ markup (WHATWG DOM standard, "textContent"), checked by watching for dialogs and
 
 from __future__ import annotations
 
-import json
-import urllib.parse
-import urllib.request
-
 import pytest
 
 playwright_api = pytest.importorskip("playwright.sync_api")
 expect = playwright_api.expect
 
+from .helpers import live_api  # noqa: E402
 from .live_server import get_json, running_server  # noqa: E402
 
 pytestmark = pytest.mark.browser
@@ -67,15 +64,6 @@ def _shot(page, name: str, *, full: bool = False) -> None:
     page.screenshot(path=str(ARTIFACTS / f"{name}.png"), full_page=full)
 
 
-def _api(base: str, method: str, path: str, body=None):
-    data = json.dumps(body).encode() if body is not None else None
-    request = urllib.request.Request(base + path, method=method, data=data,
-                                     headers={"Content-Type": "application/json"})
-    with urllib.request.urlopen(request, timeout=10) as response:
-        text = response.read()
-    return json.loads(text) if text else None
-
-
 def test_a_day_from_pasted_client_to_replan(server, phone):
     page = phone
     # 1. Add a client by pasting coordinates; the laptop echoes how it reads them.
@@ -106,7 +94,7 @@ def test_a_day_from_pasted_client_to_replan(server, phone):
     expect(stops).to_have_count(len(DAY_CLIENTS) + 1 + 2)  # + leaving and coming home
     expect(page.locator("#total-km")).to_contain_text(" km")
     expect(page.locator("#total-return")).to_have_text(
-        _api(server, "GET", f"/api/days/{WEDNESDAY}")["plan"]["return"])
+        live_api(server, "GET", f"/api/days/{WEDNESDAY}")["plan"]["return"])
     expect(page.locator("#caution")).to_contain_text("Never handle the phone while driving")
     expect(page.locator("#timeline rect.tl-visit")).to_have_count(len(DAY_CLIENTS) + 1)
     page.locator("#plan").scroll_into_view_if_needed()
@@ -146,7 +134,7 @@ def test_a_day_from_pasted_client_to_replan(server, phone):
     page.locator('input[name="where"][value="gps"]').check()
     page.locator("#replan-button").click()
     expect(stops.first).to_contain_text("Leave where you are", timeout=SOLVE_TIMEOUT_MS)
-    day = _api(server, "GET", f"/api/days/{WEDNESDAY}")
+    day = live_api(server, "GET", f"/api/days/{WEDNESDAY}")
     assert day["plan"]["start"]["lat"] == pytest.approx(47.38)
     assert [d["name"] for d in day["done"]] == [first_name]
     _shot(page, "06-road-form", full=True)
@@ -155,11 +143,11 @@ def test_a_day_from_pasted_client_to_replan(server, phone):
 def test_a_hostile_name_is_shown_as_text_and_runs_nothing(server, phone):
     page = phone
     home = get_json(server + "/api/settings")["home"]
-    hostile = _api(server, "POST", "/api/clients", {
+    hostile = live_api(server, "POST", "/api/clients", {
         "name": HOSTILE, "location": f"{home['lat'] + 0.01}, {home['lon']}", "visit_min": 15})
     other = next(c for c in get_json(server + "/api/clients?active=true")
                  if c["name"] == "Le Petit Arrosoir")
-    _api(server, "PUT", f"/api/days/{THURSDAY}/visits",
+    live_api(server, "PUT", f"/api/days/{THURSDAY}/visits",
          {"client_ids": [hostile["id"], other["id"]]})
 
     page.goto(server + "/clients?x=1")
